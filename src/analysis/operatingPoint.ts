@@ -1,0 +1,127 @@
+/**
+ * Steady-state operating point: electrical point iterated with the junction temperatures from
+ * the thermal network's DC solution, closing the Rds,on(Tj) loop. Plain fixed-point iteration on
+ * purpose: it diverges exactly when the electro-thermal loop gain ∂P/∂Tj·Rth exceeds one, which
+ * is the thermal-runaway condition, so divergence is reported as runaway rather than damped away.
+ */
+import { type ElectricalPoint, electricalPoint } from '../model/electrical.ts';
+import { type Knobs, type Plant, buildPlant, thermalSpecOf } from '../model/plant.ts';
+import {
+  type ThermalInputs,
+  type ThermalNetwork,
+  buildThermalNetwork,
+  heatToAmbientW,
+  heatToCoolantW,
+  thermalSteadyState,
+} from '../model/thermal/network.ts';
+import type { Scenario } from '../scenario/parse.ts';
+import { type Caution, electricalCautions, thermalCautions } from './cautions.ts';
+
+export interface OperatingPoint {
+  /** `unconverged`: the iteration neither settled nor ran away (reported, never silent). */
+  status: 'ok' | 'runaway' | 'unconverged';
+  iterations: number;
+  electrical: ElectricalPoint;
+  tjHsC: number;
+  tjLsC: number;
+  heatsinkC: number;
+  coolantOutC: number;
+  heatToCoolantW: number;
+  heatToAmbientW: number;
+  /** Heat delivered to the coolant per watt of total loss. */
+  usefulHeatFraction: number;
+  cautions: Caution[];
+}
+
+export interface PointConditions {
+  inletC: number;
+  flowKgPerS: number;
+  ambientC: number;
+}
+
+export interface PointContext {
+  readonly scenario: Scenario;
+  readonly plant: Plant;
+  readonly net: ThermalNetwork;
+}
+
+export function pointContext(scenario: Scenario): PointContext {
+  return { scenario, plant: buildPlant(scenario), net: buildThermalNetwork(thermalSpecOf(scenario)) };
+}
+
+/** Losses routed into the thermal network: device losses at the junctions, a share of the passives at the plate. */
+export function thermalInputsOf(plant: Plant, ep: ElectricalPoint, cond: PointConditions, out?: ThermalInputs): ThermalInputs {
+  const r = out ?? { deviceLossW: [0, 0], sinkExtraW: 0, inletC: 0, flowKgPerS: 0, ambientC: 0 };
+  (r.deviceLossW as number[])[0] = ep.leg.hs.totalW;
+  (r.deviceLossW as number[])[1] = ep.leg.ls.totalW;
+  r.sinkExtraW = plant.passiveToPlateFraction * ep.passiveW;
+  r.inletC = cond.inletC;
+  r.flowKgPerS = cond.flowKgPerS;
+  r.ambientC = cond.ambientC;
+  return r;
+}
+
+const TOL_K = 1e-7;
+const MAX_IT = 200;
+
+export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?: Partial<PointConditions>): OperatingPoint {
+  const { scenario, plant, net } = ctx;
+  const k: Knobs = { ...plant.knobs, ...knobs };
+  const c: PointConditions = {
+    inletC: cond?.inletC ?? scenario.thermal.coolant.inletC,
+    flowKgPerS: cond?.flowKgPerS ?? scenario.thermal.coolant.flowKgPerS,
+    ambientC: cond?.ambientC ?? scenario.thermal.ambientC,
+  };
+  const runawayC = scenario.limits.runawayTjC;
+  let tjH = c.inletC;
+  let tjL = c.inletC;
+  let ep = electricalPoint(plant, k, tjH, tjL);
+  let temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c));
+  let status: OperatingPoint['status'] = 'ok';
+  let it = 0;
+  // Relaxation only halves when the update changes sign (negative loop gain, e.g. below the
+  // zero-temperature-coefficient point); a monotone climb is left undamped so runaway shows.
+  let relax = 1;
+  let lastStep = 0;
+  for (; it < MAX_IT; it++) {
+    const stepH = temps[net.layout.junction[0]] - tjH;
+    const stepL = temps[net.layout.junction[1]] - tjL;
+    const done = Math.abs(stepH) < TOL_K && Math.abs(stepL) < TOL_K;
+    const step = Math.abs(stepH) > Math.abs(stepL) ? stepH : stepL;
+    if (step * lastStep < 0) relax *= 0.5;
+    lastStep = step;
+    tjH += relax * stepH;
+    tjL += relax * stepL;
+    if (done) break;
+    if (!(tjH < runawayC && tjL < runawayC)) {
+      status = 'runaway';
+      break;
+    }
+    ep = electricalPoint(plant, k, tjH, tjL);
+    temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c));
+  }
+  if (it >= MAX_IT && status === 'ok') status = 'unconverged';
+  const qCool = heatToCoolantW(net, temps, c.inletC, c.flowKgPerS);
+  const qAmb = heatToAmbientW(net, temps, c.ambientC);
+  const lim = scenario.limits;
+  const cautions = [...electricalCautions(plant, ep, tjH, tjL, lim), ...thermalCautions(plant, tjH, tjL, lim)];
+  if (status === 'runaway')
+    cautions.unshift({
+      code: 'thermalRunaway',
+      severity: 'danger',
+      message: `thermal runaway: no electro-thermal equilibrium below ${runawayC} °C (loss grows faster with temperature than the cooling removes it)`,
+    });
+  return {
+    status,
+    iterations: it,
+    electrical: ep,
+    tjHsC: tjH,
+    tjLsC: tjL,
+    heatsinkC: temps[net.layout.heatsink],
+    coolantOutC: temps[net.layout.coolant],
+    heatToCoolantW: qCool,
+    heatToAmbientW: qAmb,
+    usefulHeatFraction: ep.totalLossW > 0 ? qCool / ep.totalLossW : 0,
+    cautions,
+  };
+}

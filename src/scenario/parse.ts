@@ -1,0 +1,157 @@
+/**
+ * Scenario text → immutable Scenario. YAML or JSON (JSON is YAML). Unknown keys are rejected;
+ * every problem is reported at once as `path: message (unit), got <value>`.
+ */
+import { parseDocument } from 'yaml';
+import type { z } from 'zod';
+import type { DeviceParams } from '../model/device.ts';
+import { ScenarioError, type ScenarioProblem } from './errors.ts';
+import { PARTS } from './parts.ts';
+import { devicePartSchema, scenarioSchema, type ScenarioParsed } from './schema.ts';
+import { unitOf } from './units.ts';
+
+export type Scenario = Readonly<Omit<ScenarioParsed, 'devices'>> & {
+  readonly devices: { readonly highSide: DeviceParams; readonly lowSide: DeviceParams };
+  /** The validated input as written (before defaults), kept so variants can be re-parsed. */
+  readonly input: unknown;
+};
+
+function pathString(path: ReadonlyArray<PropertyKey>): string {
+  let s = '';
+  for (const k of path) s += typeof k === 'number' ? `[${k}]` : s ? `.${String(k)}` : String(k);
+  return s;
+}
+
+function valueAt(root: unknown, path: ReadonlyArray<PropertyKey>): unknown {
+  let v: unknown = root;
+  for (const k of path) {
+    if (v === null || typeof v !== 'object') return undefined;
+    v = (v as Record<PropertyKey, unknown>)[k];
+  }
+  return v;
+}
+
+function show(v: unknown): string {
+  if (v === undefined) return 'nothing';
+  const s = JSON.stringify(v);
+  return s.length > 60 ? `${s.slice(0, 57)}...` : s;
+}
+
+function problemsFromZod(issues: readonly z.core.$ZodIssue[], root: unknown, prefix: ReadonlyArray<PropertyKey> = []): ScenarioProblem[] {
+  const out: ScenarioProblem[] = [];
+  for (const iss of issues) {
+    const path = [...prefix, ...iss.path];
+    if (iss.code === 'unrecognized_keys') {
+      for (const k of iss.keys) out.push({ path: pathString([...path, k]), message: 'unknown field' });
+      continue;
+    }
+    const last = [...path].reverse().find((k) => typeof k === 'string') as string | undefined;
+    const unit = last ? unitOf(last) : undefined;
+    const got = valueAt(root, iss.path);
+    let msg = iss.message.replace(/^Invalid input: /, '');
+    if (iss.code === 'invalid_union') msg = 'does not match any allowed form';
+    out.push({ path: pathString(path), message: `${msg}${unit ? ` (unit: ${unit})` : ''}, got ${show(got)}` });
+  }
+  return out;
+}
+
+/** Parse YAML/JSON text into a plain value, or throw ScenarioError with line numbers. */
+export function parseText(text: string): unknown {
+  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true });
+  if (doc.errors.length > 0) {
+    throw new ScenarioError(
+      doc.errors.map((e) => ({ path: '(syntax)', message: `line ${e.linePos?.[0]?.line ?? '?'}: ${e.message.split('\n')[0]}` })),
+    );
+  }
+  return doc.toJS();
+}
+
+function resolveDevice(ref: Record<string, unknown>, where: string, problems: ScenarioProblem[]): DeviceParams | undefined {
+  const { part, ...overrides } = ref as { part: string };
+  const base = PARTS[part];
+  if (!base) {
+    problems.push({ path: `${where}.part`, message: `unknown part ${show(part)}; known parts: ${Object.keys(PARTS).join(', ')}` });
+    return undefined;
+  }
+  const merged = { ...base, ...overrides };
+  const r = devicePartSchema.safeParse(merged);
+  if (!r.success) {
+    problems.push(...problemsFromZod(r.error.issues, merged, where.split('.')));
+    return undefined;
+  }
+  return Object.freeze({ part, ...r.data });
+}
+
+function deepFreeze<T>(o: T): T {
+  if (o && typeof o === 'object' && !Object.isFrozen(o)) {
+    Object.freeze(o);
+    for (const v of Object.values(o)) deepFreeze(v);
+  }
+  return o;
+}
+
+/** Validate a plain object as a scenario. Throws ScenarioError listing every problem. */
+export function parseScenarioObject(input: unknown): Scenario {
+  if (input === null || typeof input !== 'object' || Array.isArray(input)) {
+    throw new ScenarioError([{ path: '(root)', message: `must be a mapping of fields, got ${show(input)}` }]);
+  }
+  const r = scenarioSchema.safeParse(input);
+  if (!r.success) throw new ScenarioError(problemsFromZod(r.error.issues, input));
+  const problems: ScenarioProblem[] = [];
+  const hs = resolveDevice(r.data.devices.highSide as Record<string, unknown>, 'devices.highSide', problems);
+  const ls = resolveDevice(r.data.devices.lowSide as Record<string, unknown>, 'devices.lowSide', problems);
+  if (problems.length > 0 || !hs || !ls) throw new ScenarioError(problems);
+  const vBus = r.data.buck?.vinV ?? r.data.halfBridge?.vdcV ?? 0;
+  for (const [name, dev] of [['highSide', hs], ['lowSide', ls]] as const) {
+    if (vBus > dev.vdsRatedV)
+      problems.push({ path: `devices.${name}.part`, message: `bus ${vBus} V exceeds the part's rated ${dev.vdsRatedV} V` });
+  }
+  if (problems.length > 0) throw new ScenarioError(problems);
+  const scenario = { ...r.data, devices: { highSide: hs, lowSide: ls }, input: structuredClone(input) };
+  return deepFreeze(scenario) as Scenario;
+}
+
+export function parseScenario(text: string): Scenario {
+  return parseScenarioObject(parseText(text));
+}
+
+/** Set a dotted path (`pwm.fswHz`, `thermal.devices.highSide.caseSinkKPerW`) in a plain object copy. */
+export function setPath(root: unknown, path: string, value: unknown): unknown {
+  const keys = path.split('.');
+  if (keys.some((k) => k === '' || k === '__proto__' || k === 'constructor' || k === 'prototype'))
+    throw new ScenarioError([{ path, message: 'not a valid field path' }]);
+  const copy = structuredClone(root) as Record<string, unknown>;
+  let node: Record<string, unknown> = copy;
+  for (let i = 0; i < keys.length - 1; i++) {
+    const k = keys[i];
+    const next = node[k];
+    if (next === undefined) node[k] = {};
+    else if (next === null || typeof next !== 'object' || Array.isArray(next))
+      throw new ScenarioError([{ path, message: `${keys.slice(0, i + 1).join('.')} is not a group of fields` }]);
+    node = node[k] as Record<string, unknown>;
+  }
+  node[keys[keys.length - 1]] = value;
+  return copy;
+}
+
+/** A variant of a scenario with some fields replaced (sweeps, --set, studies). Re-validated. */
+export function withOverrides(scenario: Scenario, patch: Readonly<Record<string, unknown>>): Scenario {
+  let input = scenario.input;
+  for (const [path, value] of Object.entries(patch)) input = setPath(input, path, value);
+  return parseScenarioObject(input);
+}
+
+/** Parse a `--set` value: numbers (1e5, 200e3), booleans, JSON arrays/objects, else a string. */
+export function parseSetValue(text: string): unknown {
+  const t = text.trim();
+  if (/^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$/.test(t)) return Number(t);
+  if (t === 'true' || t === 'false') return t === 'true';
+  if (t.startsWith('[') || t.startsWith('{')) {
+    try {
+      return JSON.parse(t);
+    } catch {
+      throw new ScenarioError([{ path: '--set', message: `cannot read ${show(t)} as JSON` }]);
+    }
+  }
+  return t;
+}
