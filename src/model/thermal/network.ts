@@ -14,12 +14,16 @@ import { solveLinear } from './denseLinalg.ts';
 import { validateThermalSpec, type ThermalSpec } from './thermalSpec.ts';
 
 export type { DeviceThermalSpec, JunctionCaseSpec, ThermalSpec } from './thermalSpec.ts';
+import { thermalConductanceSystem, thermalInputVector } from './thermalLti.ts';
+
 export {
   discretizeThermal,
   stepThermalDiscrete,
   thermalInputIndex,
+  thermalConductanceSystem,
   thermalInputVector,
   thermalSystemMatrices,
+  type ThermalConductanceSystem,
   type ThermalDiscrete,
   type ThermalInputIndex,
   type ThermalSystemMatrices,
@@ -188,30 +192,16 @@ function requireSteadyStateExists(net: ThermalNetwork, flowKgPerS: number): void
     );
 }
 
-/** DC solution G·T = P of the network (exact linear solve); allocates, not for the hot path. */
+/** DC solution G·T = B0·u of the network (exact linear solve); allocates, not for the hot path. */
 export function thermalSteadyState(net: ThermalNetwork, inputs: ThermalInputs): Float64Array {
   checkThermalInputs(net, inputs);
   requireSteadyStateExists(net, inputs.flowKgPerS);
-  const n = net.nNodes;
-  const gMat = new Float64Array(n * n);
+  const { nNodes: n, nInputs: m, gWPerK, b0 } = thermalConductanceSystem(net, inputs.flowKgPerS);
+  const u = new Float64Array(m);
+  thermalInputVector(net, inputs, u);
   const rhs = new Float64Array(n);
-  for (let e = 0; e < net.edgeGWPerK.length; e++) {
-    const a = net.edgeFrom[e];
-    const b = net.edgeTo[e];
-    const ge = net.edgeGWPerK[e];
-    gMat[a * n + a] += ge;
-    gMat[b * n + b] += ge;
-    gMat[a * n + b] -= ge;
-    gMat[b * n + a] -= ge;
-  }
-  const { junction, heatsink, coolant } = net.layout;
-  for (let d = 0; d < net.nDevices; d++) rhs[junction[d]] += inputs.deviceLossW[d];
-  gMat[heatsink * n + heatsink] += net.gSinkAmbientWPerK;
-  rhs[heatsink] += inputs.sinkExtraW + net.gSinkAmbientWPerK * inputs.ambientC;
-  const gStream = inputs.flowKgPerS * net.coolantCpJPerKgK;
-  gMat[coolant * n + coolant] += gStream;
-  rhs[coolant] += gStream * inputs.inletC;
-  return solveLinear(gMat, n, rhs, 1);
+  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) rhs[i] += b0[i * m + j] * u[j];
+  return solveLinear(gWPerK, n, rhs, 1);
 }
 
 /** Heat carried away by the coolant stream, ṁ·cp·(T_coolant − T_inlet) in W (steady-flow energy equation). */

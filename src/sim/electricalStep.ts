@@ -1,0 +1,173 @@
+/**
+ * Advancing the averaged electrical states over an interval with the duty held (PWM hold).
+ * Two integrators behind one interface:
+ *  - `odex`: the Gragg–Bulirsch–Stoer extrapolation solver from the odex package, restarted at
+ *    every interval (accuracy reference; used where the plant is strongly nonlinear);
+ *  - `zoh`: exact zero-order-hold discretization of the plant linearized about the current
+ *    point (affine local model x' = A·x + b·d + w), cached and re-linearized when the state,
+ *    inputs or temperatures move. Both integrate the same `averagedDerivatives`.
+ * This file (with engine.ts) is the only place that imports odex.
+ */
+import { Outcome, Solver } from 'odex';
+import { type AvgInputs, type AvgOutputs, averagedDerivatives, newAvgOutputs } from '../model/averaged.ts';
+import { type LegResult, newLegResult } from '../model/leg.ts';
+import type { Plant } from '../model/plant.ts';
+import { zohDiscretize } from '../model/thermal/matrixExponential.ts';
+
+/** Integrated quantities carried alongside the states (J, or V·s / s for means). */
+export const ENERGY = Object.freeze({ pin: 0, pout: 1, hs: 2, ls: 3, passive: 4, gateDriver: 5, store: 6, n: 7 });
+
+export function addEnergies(acc: Float64Array, o: AvgOutputs, leg: LegResult, dtS: number): void {
+  acc[ENERGY.pin] += o.pinW * dtS;
+  acc[ENERGY.pout] += o.poutW * dtS;
+  acc[ENERGY.hs] += leg.hs.totalW * dtS;
+  acc[ENERGY.ls] += leg.ls.totalW * dtS;
+  acc[ENERGY.passive] += o.passiveW * dtS;
+  acc[ENERGY.gateDriver] += o.gateDriverW * dtS;
+  acc[ENERGY.store] += o.pStoreW * dtS;
+}
+
+export class OdexStepper {
+  private readonly solver: Solver;
+  private readonly leg = newLegResult();
+  private readonly outs = newAvgOutputs();
+  private readonly y = new Array<number>(2 + ENERGY.n).fill(0);
+  private readonly dx = new Float64Array(2);
+  private u!: AvgInputs;
+  private readonly f: (t: number, y: number[]) => number[];
+  evaluations = 0;
+
+  constructor(private readonly plant: Plant, relTol = 1e-9, absTol = 1e-9) {
+    this.solver = new Solver(2 + ENERGY.n);
+    this.solver.relativeTolerance = relTol;
+    this.solver.absoluteTolerance = absTol;
+    this.solver.maxSteps = 100_000;
+    this.solver.denseOutput = false;
+    const out = new Array<number>(2 + ENERGY.n).fill(0);
+    this.f = (_t, y) => {
+      this.evaluations++;
+      averagedDerivatives(this.plant, y, this.u, this.dx, this.leg, this.outs);
+      out[0] = this.dx[0];
+      out[1] = this.dx[1];
+      const o = this.outs;
+      out[2 + ENERGY.pin] = o.pinW;
+      out[2 + ENERGY.pout] = o.poutW;
+      out[2 + ENERGY.hs] = this.leg.hs.totalW;
+      out[2 + ENERGY.ls] = this.leg.ls.totalW;
+      out[2 + ENERGY.passive] = o.passiveW;
+      out[2 + ENERGY.gateDriver] = o.gateDriverW;
+      out[2 + ENERGY.store] = o.pStoreW;
+      return out;
+    };
+  }
+
+  /** Advance x over dtS with inputs u held; energies integrated exactly into `acc`. */
+  advance(x: Float64Array, u: AvgInputs, dtS: number, acc: Float64Array): 'ok' | 'failed' {
+    this.u = u;
+    const y = this.y;
+    y[0] = x[0];
+    y[1] = x[1];
+    for (let k = 0; k < ENERGY.n; k++) y[2 + k] = 0;
+    const r = this.solver.solve(this.f, 0, y, dtS);
+    if (r.outcome !== Outcome.Converged) return 'failed';
+    x[0] = r.y[0];
+    x[1] = r.y[1];
+    for (let k = 0; k < ENERGY.n; k++) acc[k] += r.y[2 + k];
+    return Number.isFinite(x[0]) && Number.isFinite(x[1]) ? 'ok' : 'failed';
+  }
+}
+
+/**
+ * Local linear model with exact ZOH discretization. Valid near (x0, d0) for the inputs and
+ * temperatures it was built with; `stillValid` says when to rebuild.
+ */
+export class ZohStepper {
+  private readonly leg = newLegResult();
+  private readonly outs = newAvgOutputs();
+  private readonly f0 = new Float64Array(2);
+  private readonly fp = new Float64Array(2);
+  private readonly x0 = new Float64Array(2);
+  private d0 = NaN;
+  private dtS = NaN;
+  private u0: AvgInputs | undefined;
+  private readonly uKey = new Float64Array(9);
+  /** x⁺ = ad·x + gb·d + gw */
+  private readonly ad = new Float64Array(4);
+  private readonly gb = new Float64Array(2);
+  private readonly gw = new Float64Array(2);
+  private readonly scale = new Float64Array(2);
+  linearizations = 0;
+  /** Outputs and leg at the linearization point (powers used between evaluations). */
+  readonly pointOuts: AvgOutputs = newAvgOutputs();
+  readonly pointLeg: LegResult = newLegResult();
+  /** The leg at the point is strongly nonlinear (saturation, DCM, an edge current near zero). */
+  nonlinear = false;
+
+  constructor(private readonly plant: Plant) {}
+
+  private key(u: AvgInputs): void {
+    const k = this.uKey;
+    k[0] = u.fswHz; k[1] = u.deadTimeS; k[2] = u.vDriveV; k[3] = u.vSourceV; k[4] = u.loadROhm;
+    k[5] = u.loadIA; k[6] = u.backEmfV; k[7] = u.tjHsC; k[8] = u.tjLsC;
+  }
+
+  stillValid(x: Float64Array, u: AvgInputs, dtS: number): boolean {
+    if (this.u0 === undefined || dtS !== this.dtS) return false;
+    const k = this.uKey;
+    if (u.fswHz !== k[0] || u.deadTimeS !== k[1] || u.vDriveV !== k[2] || u.vSourceV !== k[3] || u.backEmfV !== k[6]) return false;
+    if (!(u.loadROhm === k[4] || (Number.isNaN(u.loadROhm) && Number.isNaN(k[4]))) || u.loadIA !== k[5]) return false;
+    if (Math.abs(u.tjHsC - k[7]) > 0.25 || Math.abs(u.tjLsC - k[8]) > 0.25) return false;
+    if (Math.abs(u.duty - this.d0) > 0.002) return false;
+    return Math.abs(x[0] - this.x0[0]) <= this.scale[0] && Math.abs(x[1] - this.x0[1]) <= this.scale[1];
+  }
+
+  linearize(x: Float64Array, u: AvgInputs, dtS: number): void {
+    this.linearizations++;
+    const p = this.plant;
+    const uu = { ...u };
+    averagedDerivatives(p, x, uu, this.f0, this.pointLeg, this.pointOuts);
+    const lg = this.pointLeg;
+    this.nonlinear = lg.dcm || lg.hsSaturated || lg.lsSaturated || lg.shootThrough ||
+      Math.min(Math.abs(lg.iPeakA), Math.abs(lg.iValleyA)) < 0.15 * Math.max(lg.ripplePpA, 1e-3);
+    const a = new Float64Array(4);
+    const h0 = 1e-4 * Math.max(1, Math.abs(x[0]));
+    const h1 = 1e-4 * Math.max(1, Math.abs(x[1]));
+    const xp = new Float64Array(x);
+    for (let j = 0; j < 2; j++) {
+      const h = j === 0 ? h0 : h1;
+      xp[0] = x[0]; xp[1] = x[1];
+      xp[j] += h;
+      averagedDerivatives(p, xp, uu, this.fp, this.leg);
+      a[j] = (this.fp[0] - this.f0[0]) / h;
+      a[2 + j] = (this.fp[1] - this.f0[1]) / h;
+    }
+    const hd = 1e-6;
+    uu.duty = u.duty + hd;
+    averagedDerivatives(p, x, uu, this.fp, this.leg);
+    const b0 = (this.fp[0] - this.f0[0]) / hd;
+    const b1 = (this.fp[1] - this.f0[1]) / hd;
+    // Affine term w so that f ≈ A·x + b·d + w reproduces f0 at (x, d).
+    const w0 = this.f0[0] - a[0] * x[0] - a[1] * x[1] - b0 * u.duty;
+    const w1 = this.f0[1] - a[2] * x[0] - a[3] * x[1] - b1 * u.duty;
+    const z = zohDiscretize(a, Float64Array.of(b0, w0, b1, w1), 2, 2, dtS);
+    this.ad.set(z.ad);
+    this.gb[0] = z.bd[0]; this.gw[0] = z.bd[1];
+    this.gb[1] = z.bd[2]; this.gw[1] = z.bd[3];
+    this.x0.set(x);
+    this.d0 = u.duty;
+    this.dtS = dtS;
+    this.u0 = uu;
+    this.key(u);
+    this.scale[0] = Math.max(0.05, 0.02 * Math.abs(x[0]), 0.1 * lg.ripplePpA);
+    this.scale[1] = Math.max(0.01, 0.005 * Math.abs(x[1]));
+  }
+
+  /** One held-duty step of the cached discretization (dtS as linearized). */
+  step(x: Float64Array, duty: number): void {
+    const ad = this.ad;
+    const x0 = ad[0] * x[0] + ad[1] * x[1] + this.gb[0] * duty + this.gw[0];
+    const x1 = ad[2] * x[0] + ad[3] * x[1] + this.gb[1] * duty + this.gw[1];
+    x[0] = x0;
+    x[1] = x1;
+  }
+}
