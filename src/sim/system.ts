@@ -30,7 +30,7 @@ export interface SimSystem {
   readonly net: ThermalNetwork;
   readonly pi: Omit<PiConfig, 'uMin' | 'uMax'> & { readonly uMin: number; readonly uMax: number };
   readonly delaySamples: number;
-  readonly sampling: Scenario['control'] extends infer C ? NonNullable<C>['sampling'] : never;
+  readonly sampling: NonNullable<Scenario['control']>['sampling'];
   readonly sensorFilterHz: number | undefined;
   readonly profiles: SimProfiles;
   readonly loadIsCurrent: boolean;
