@@ -5,7 +5,8 @@
  */
 import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
 import { type Scenario, withOverrides } from '../scenario/parse.ts';
-import { type OperatingPoint, operatingPoint, pointContext } from './operatingPoint.ts';
+import { buildPlant, thermalSpecOf } from '../model/plant.ts';
+import { type OperatingPoint, type PointContext, operatingPoint, pointContext } from './operatingPoint.ts';
 
 export const MAX_SWEEP_STEPS = 100_000;
 
@@ -65,8 +66,19 @@ function dedupe(problems: readonly ScenarioProblem[]): ScenarioProblem[] {
   });
 }
 
+/**
+ * A variant's context, reusing the base's thermal network when the variant leaves the thermal
+ * path unchanged (building the network costs about as much as solving a point).
+ */
+function contextFor(variant: Scenario, base: PointContext, baseSpecJson: string): PointContext {
+  if (JSON.stringify(thermalSpecOf(variant)) !== baseSpecJson) return pointContext(variant);
+  return { scenario: variant, plant: buildPlant(variant), net: base.net };
+}
+
 /** The steady-state operating point of each variant. */
 export function sweepPoints(scenario: Scenario, param: string, values: readonly number[]): SweepPoint[] {
   const variants = sweepVariants(scenario, param, values);
-  return variants.map((s, i) => ({ value: values[i], scenario: s, point: operatingPoint(pointContext(s)) }));
+  const base = pointContext(scenario);
+  const baseSpecJson = JSON.stringify(thermalSpecOf(scenario));
+  return variants.map((s, i) => ({ value: values[i], scenario: s, point: operatingPoint(contextFor(s, base, baseSpecJson)) }));
 }

@@ -20,7 +20,7 @@ const w = (x: number, d = 2): string => `${fixed(x, d)} W`;
 
 function capLine(name: string, c: { rmsA: number; ratingA: number; lossW: number }): string[] {
   const util = c.ratingA > 0 ? c.rmsA / c.ratingA : Infinity;
-  return [name, `${fixed(c.rmsA, 2)} A rms`, `rating ${fixed(c.ratingA, 2)} A`, `${fixed(100 * util, 0)} %${util > 1 ? '  OVER' : ''}`, w(c.lossW, 3)];
+  return [name, `${fixed(c.rmsA, 2)} A`, `${fixed(c.ratingA, 2)} A`, `${fixed(100 * util, 0)} %`, w(c.lossW, 3), util > 1 ? 'OVER RATING' : ''];
 }
 
 export function renderPoint(r: PointRecord): string {
@@ -72,19 +72,23 @@ export function renderPoint(r: PointRecord): string {
   out.push(table(passive).trimEnd());
   out.push('');
 
-  out.push('Ripple and capacitors');
-  const rip: string[][] = [['inductor current', `${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A`, `${fixed(r.ripplePpA, 2)} A p-p`, r.iValleyA < 0 ? 'reverses' : '', '']];
-  if (r.topology === 'buck') rip.push(['output voltage', `${fixed(r.voutRipplePpV * 1e3, 1)} mV p-p`, '', '', '']);
-  if (r.capacitors.output) rip.push(capLine('output capacitor', r.capacitors.output));
-  rip.push(capLine(r.topology === 'buck' ? 'input capacitor' : 'DC-link capacitor', r.capacitors.input));
-  out.push(table(rip, ['l', 'r', 'r', 'r', 'r']).trimEnd());
+  out.push('Ripple');
+  const rip: string[][] = [['inductor current', `${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A`, `(${fixed(r.ripplePpA, 2)} A p-p${r.iValleyA < 0 ? ', reverses each period' : ''})`]];
+  if (r.topology === 'buck') rip.push(['output voltage', `${si(r.voutRipplePpV, 'V')} p-p`, '']);
+  out.push(table(rip, ['l', 'r', 'l']).trimEnd());
+  out.push('');
+
+  const caps: string[][] = [['Capacitors', 'ripple rms', 'rating', 'use', 'loss']];
+  if (r.capacitors.output) caps.push(capLine('  output', r.capacitors.output));
+  caps.push(capLine(r.topology === 'buck' ? '  input' : '  DC link', r.capacitors.input));
+  out.push(table(caps, ['l', 'r', 'r', 'r', 'r', 'l'], '').trimEnd());
   out.push('');
 
   out.push('Heat');
   out.push(
     table([
-      ['to coolant', w(r.heatToCoolantW), `${percent(r.usefulHeatFraction, 0)} of the loss`],
-      ['to ambient', w(r.heatToAmbientW), r.heatToAmbientW < 0 ? '(ambient warms the plate)' : ''],
+      ['to coolant', w(r.heatToCoolantW), `= ${percent(r.usefulHeatFraction, 0)} of the total loss${r.heatToAmbientW < 0 ? `, including ${w(-r.heatToAmbientW)} drawn from ambient` : ''}`],
+      ['to ambient', w(r.heatToAmbientW), ''],
       ['heatsink', `${fixed(r.heatsinkC, 2)} °C`, ''],
       ['coolant out', `${fixed(r.coolantOutC, 3)} °C`, ''],
     ], ['l', 'r', 'l']).trimEnd(),

@@ -167,6 +167,8 @@ function conductRamp(p: LegParams, hs: boolean, i0: number, i1: number, vgs: num
 
 const tHs: SwitchTiming = newSwitchTiming();
 const tLs: SwitchTiming = newSwitchTiming();
+/** Incoming device's timing at the current it actually switches on (the edge current). */
+const tOnEdge: SwitchTiming = newSwitchTiming();
 
 /** Per-edge outcome, in energies (J) and node volt-seconds during the gap. */
 interface Edge {
@@ -180,9 +182,8 @@ const edgeFall: Edge = { ...edgeRise };
  * One commutation. `toHigh` true: low side hands over to high side (node starts near 0),
  * false: high to low (node starts near the bus). `gapS` is the effective dead time (≥ 0).
  */
-function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus: number, tjH: number, tjL: number, out: Edge): void {
+function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus: number, vDriveV: number, tjH: number, tjL: number, out: Edge): void {
   const cTot = p.hs.cossF + p.ls.cossF;
-  const inT = toHigh ? tHs : tLs;
   const outT = toHigh ? tLs : tHs;
   const inDevTj = toHigh ? tjH : tjL;
   const outDev = toHigh ? p.ls : p.hs;
@@ -232,7 +233,10 @@ function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus:
     out.eDiodeJ = vf * mag * gapS;
     out.diodeInHs = !toHigh;
     out.areaVs = gapS * (toHigh ? -vf : vBus + vf);
-    out.eOnJ = turnOnEnergyJ(vBus, mag, inT);
+    // The incoming device turns on at this edge's current (the valley for a buck high side),
+    // not at the current it carries when it later turns off: its Miller plateau sits there.
+    switchTiming(inDev, p.gate, vDriveV, vBus, mag, inDevTj, tOnEdge);
+    out.eOnJ = turnOnEnergyJ(vBus, mag, tOnEdge);
     out.eCossJ = 0.5 * cTot * vBus * vBus;
     out.eRrJ = qrrCoulomb(outDev, mag, outTj) * vBus;
   }
@@ -277,10 +281,13 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
       gapRise = x.deadTimeS + tHs.tdOnS - tLs.tdOffS - p.skewS;
       gapFall = x.deadTimeS + tLs.tdOnS - tHs.tdOffS - p.skewS;
     }
-    const gR = Math.max(gapRise, 0);
-    const gF = Math.max(gapFall, 0);
-    tHsOn = Math.max(x.duty * T - gR, 0);
-    tLsOn = Math.max((1 - x.duty) * T - gF, 0);
+    // A gap cannot outlast the interval it delays: when the dead time exceeds a device's
+    // command pulse that device never turns on and the diode carries the rest of the interval
+    // (the period is gap₁ + t_HS + gap₂ + t_LS = T, never more).
+    const gR = Math.min(Math.max(gapRise, 0), x.duty * T);
+    const gF = Math.min(Math.max(gapFall, 0), (1 - x.duty) * T);
+    tHsOn = x.duty * T - gR;
+    tLsOn = (1 - x.duty) * T - gF;
     conductRamp(p, true, iEndLow, iEndHigh, vg, tjH, vCap, rampHs);
     const vHigh = vBus + rampHs.dropV;
     delta = ((vHigh - x.vFarV) * tHsOn) / x.lH;
@@ -335,10 +342,10 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     out.hs.conductionW = rampHs.lossW * fHs;
     if (diodeMode) out.ls.diodeW = rampLs.lossW * fLs;
     else out.ls.conductionW = rampLs.lossW * fLs;
-    const gR = Math.max(gapRise, 0);
-    const gF = Math.max(gapFall, 0);
-    commutate(p, true, iValley, gR, vBus, tjH, tjL, edgeRise);
-    commutate(p, false, iPeak, gF, vBus, tjH, tjL, edgeFall);
+    const gR = Math.min(Math.max(gapRise, 0), x.duty * T);
+    const gF = Math.min(Math.max(gapFall, 0), (1 - x.duty) * T);
+    commutate(p, true, iValley, gR, vBus, vg, tjH, tjL, edgeRise);
+    commutate(p, false, iPeak, gF, vBus, vg, tjH, tjL, edgeFall);
     vNode = ((vBus + rampHs.dropV) * tHsOn + rampLs.dropV * tLsOn + edgeRise.areaVs + edgeFall.areaVs) / T;
     const fsw = x.fswHz;
     for (const e of [edgeRise, edgeFall]) {

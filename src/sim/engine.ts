@@ -212,19 +212,30 @@ export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
   let lastE = 0;
   let useOdex = mode === 'odex';
 
+  const breakProfiles = [prof.loadROhm, prof.loadIA, prof.vinV, prof.inletC, prof.flowKgPerS, prof.heatDemandW, prof.reference]
+    .concat(sup ? [] : [prof.fswHz, prof.deadTimeS, prof.vDriveV])
+    .filter((p) => !p.constant);
+  let cachedBreak = -1;
+  let cachedBreakAt = NaN;
   const nextBreak = (tt: number): number => {
-    let b = Infinity;
-    for (const p of [prof.loadROhm, prof.loadIA, prof.vinV, prof.inletC, prof.flowKgPerS, prof.heatDemandW, prof.reference]) b = Math.min(b, p.nextBreakS(tt));
-    if (!sup) for (const p of [prof.fswHz, prof.deadTimeS, prof.vDriveV]) b = Math.min(b, p.nextBreakS(tt));
-    return b;
+    if (tt >= cachedBreakAt || Number.isNaN(cachedBreakAt) || tt < cachedBreak) {
+      let b = Infinity;
+      for (const p of breakProfiles) b = Math.min(b, p.nextBreakS(tt));
+      cachedBreak = tt;
+      cachedBreakAt = b;
+    }
+    return cachedBreakAt;
   };
   const anyRamp = (tt: number): boolean =>
     rampActive(prof.loadROhm, tt) || rampActive(prof.loadIA, tt) || rampActive(prof.vinV, tt) || rampActive(prof.reference, tt) ||
     (!sup && (rampActive(prof.fswHz, tt) || rampActive(prof.deadTimeS, tt) || rampActive(prof.vDriveV, tt)));
 
-  const thermalStep = (dt: number): void => {
+  const thermalStep = (dtIn: number): void => {
+    let dt = dtIn;
     if (dt <= 0) return;
     const flow = prof.flowKgPerS.valueAt(t);
+    // Floating-point drift in the accumulated step would defeat the cache: snap to the nominal step.
+    if (Math.abs(dt - thDt) < 1e-9 * thDt) dt = thDt;
     const key = `${flow}|${dt}`;
     let disc = thCache.get(key);
     if (!disc) {
