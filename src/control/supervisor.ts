@@ -99,7 +99,7 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
   };
   let knobs: Knobs = { fswHz: sc.pwm.fswHz, deadTimeS: sc.pwm.deadTimeS, vDriveV: sc.gateDrive.vDriveV };
   // Actuator positions before quantization: they slew continuously; the hardware sees them quantized.
-  const cont: Knobs = { ...knobs };
+  const cont: { fswHz: number; deadTimeS: number; vDriveV: number } = { ...knobs };
   let table: { s: Float64Array; lossW: Float64Array; ladder: Ladder } | undefined;
   let tableKey = '';
   let worstLimited = { shortfallW: 0, binding: 'none' as Binding, tS: 0 };

@@ -38,8 +38,17 @@ export interface GateDriveParams {
 }
 
 /** Temperature factor (1+α)^(Tj−25) (Graovac, Pürschel, Kiep, Infineon AN "MOSFET Power Losses Calculation Using the Data-Sheet Parameters", 2006). */
+let memoAlpha = NaN;
+let memoTj = NaN;
+let memoFactor = 1;
 export function rdsTempFactor(dev: DeviceParams, tjC: number): number {
-  return Math.pow(1 + dev.rdsTempCoeffPerK, tjC - 25);
+  // Hot path: the same (α, Tj) is asked for many times per leg evaluation.
+  if (dev.rdsTempCoeffPerK !== memoAlpha || tjC !== memoTj) {
+    memoAlpha = dev.rdsTempCoeffPerK;
+    memoTj = tjC;
+    memoFactor = Math.pow(1 + memoAlpha, tjC - 25);
+  }
+  return memoFactor;
 }
 
 /** Threshold voltage at Tj: falls a few mV/K (typical datasheet figure). */

@@ -242,6 +242,13 @@ function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus:
   }
 }
 
+/** Share of the gate-drive power dissipated in the device's internal gate resistance (mean of on and off paths). */
+function gateShare(p: LegParams, dev: DeviceParams): number {
+  const rOn = p.gate.rDriverOnOhm + p.gate.rGateExtOhm + dev.rGateIntOhm;
+  const rOff = p.gate.rDriverOffOhm + p.gate.rGateExtOhm + dev.rGateIntOhm;
+  return 0.5 * (dev.rGateIntOhm / rOn + dev.rGateIntOhm / rOff);
+}
+
 /**
  * Evaluate the leg over one switching period. Writes into and returns `out` (no allocation).
  * Two passes settle the ripple against the conduction drops.
@@ -348,7 +355,8 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     commutate(p, false, iPeak, gF, vBus, vg, tjH, tjL, edgeFall);
     vNode = ((vBus + rampHs.dropV) * tHsOn + rampLs.dropV * tLsOn + edgeRise.areaVs + edgeFall.areaVs) / T;
     const fsw = x.fswHz;
-    for (const e of [edgeRise, edgeFall]) {
+    for (let ei = 0; ei < 2; ei++) {
+      const e = ei === 0 ? edgeRise : edgeFall;
       const inLoss = e.hardInIsHs ? out.hs : out.ls;
       const outLoss = e.hardInIsHs ? out.ls : out.hs;
       inLoss.turnOnW += e.eOnJ * fsw;
@@ -367,32 +375,34 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     if (iPeak < 0 && edgeFall.diodeInHs) { busMean += (iPeak * edgeFall.diodeS) / T; busMs += (iPeak * iPeak * edgeFall.diodeS) / T; }
     iMs = iM * iM + (delta * delta) / 12;
     out.riseFraction = (tHsOn + gR) / T;
-    // Shoot-through: channels overlap when the effective gap is negative. Peak current limited by
-    // the loop inductance (i = V·Δt/Lσ) and by the channels' saturation; indicative only.
+    // Shoot-through: channels overlap when the effective gap is negative. The loop current
+    // ramps at V/Lσ (E = V²Δt²/(2Lσ), Jeong & Park-style estimate, REFERENCES.md) until the
+    // channels saturate; past that the bus voltage stands across the saturated channels:
+    // E = ½·Lσ·Isat² + V·Isat·(Δt − Lσ·Isat/V). Each edge with its own overlap. Indicative only.
     const overlap = Math.max(-gapRise, -gapFall, 0);
     if (overlap > 0) {
       const iLimit = Math.min(saturationCurrentA(p.hs, vg, tjH), saturationCurrentA(p.ls, vg, tjL));
-      const ipk = Math.min((vBus * overlap) / p.commutationLoopH, iLimit);
-      const nEdges = (gapRise < 0 ? 1 : 0) + (gapFall < 0 ? 1 : 0);
-      const eJ = 0.5 * vBus * ipk * overlap * nEdges;
+      const lS = p.commutationLoopH;
+      const shootEnergyJ = (dtS: number): number => {
+        if (!(dtS > 0)) return 0;
+        const iLin = (vBus * dtS) / lS;
+        if (iLin <= iLimit) return 0.5 * vBus * iLin * dtS;
+        return 0.5 * lS * iLimit * iLimit + vBus * iLimit * (dtS - (lS * iLimit) / vBus);
+      };
+      const eJ = shootEnergyJ(-gapRise) + shootEnergyJ(-gapFall);
       out.hs.shootThroughW = out.ls.shootThroughW = 0.5 * eJ * fsw;
       out.shootThrough = true;
       out.overlapS = overlap;
-      out.shootPeakA = ipk;
+      out.shootPeakA = Math.min((vBus * overlap) / lS, iLimit);
     }
   }
 
   // Gate drive Qg·ΔV·fsw, split between internal gate resistance (device) and driver + external.
-  const gateShare = (dev: DeviceParams): number => {
-    const rOn = p.gate.rDriverOnOhm + p.gate.rGateExtOhm + dev.rGateIntOhm;
-    const rOff = p.gate.rDriverOffOhm + p.gate.rGateExtOhm + dev.rGateIntOhm;
-    return 0.5 * (dev.rGateIntOhm / rOn + dev.rGateIntOhm / rOff);
-  };
   const swing = vg - p.gate.vOffV;
   const pgHs = gateChargeCoulomb(p.hs, vg, p.gate.vOffV) * swing * x.fswHz;
   const pgLs = diodeMode ? 0 : gateChargeCoulomb(p.ls, vg, p.gate.vOffV) * swing * x.fswHz;
-  const shHs = gateShare(p.hs);
-  const shLs = gateShare(p.ls);
+  const shHs = gateShare(p, p.hs);
+  const shLs = gateShare(p, p.ls);
   out.hs.gateW = pgHs * shHs;
   out.ls.gateW = pgLs * shLs;
   out.gateDriverW = pgHs * (1 - shHs) + pgLs * (1 - shLs);
