@@ -25,7 +25,10 @@ function capLine(name: string, c: { rmsA: number; ratingA: number; lossW: number
 
 export function renderPoint(r: PointRecord): string {
   const out: string[] = [];
-  const conv = r.topology === 'buck' ? `buck ${fixed(r.vinV, 1)} V → ${fixed(r.voutV, 2)} V, ${fixed(r.ioutA, 2)} A` : `half-bridge leg, link ${fixed(r.vinV, 1)} V, load ${fixed(r.ioutA, 2)} A mean`;
+  const conv =
+    r.topology === 'buck'
+      ? `buck ${fixed(r.vinV, 1)} V → ${fixed(r.voutV, 2)} V, ${fixed(r.ioutA, 2)} A`
+      : `half-bridge leg, DC link ${fixed(r.vinV, 1)} V, load current ${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A (mean ${fixed(r.ioutA, 2)} A)`;
   out.push(`${r.scenario}: ${conv}`);
   const status = r.status === 'ok' ? 'converged' : r.status === 'runaway' ? 'THERMAL RUNAWAY' : 'NOT CONVERGED';
   out.push(
@@ -73,7 +76,10 @@ export function renderPoint(r: PointRecord): string {
   out.push('');
 
   out.push('Ripple');
-  const rip: string[][] = [['inductor current', `${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A`, `(${fixed(r.ripplePpA, 2)} A p-p${r.iValleyA < 0 ? ', reverses each period' : ''})`]];
+  const rip: string[][] =
+    r.topology === 'buck'
+      ? [['inductor current', `${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A`, `(${fixed(r.ripplePpA, 2)} A p-p${r.iValleyA < 0 ? ', reverses each period' : ''})`]]
+      : [['load current ripple', `${fixed(r.ripplePpA, 2)} A p-p`, '(largest over the reference)']];
   if (r.topology === 'buck') rip.push(['output voltage', `${si(r.voutRipplePpV, 'V')} p-p`, '']);
   out.push(table(rip, ['l', 'r', 'l']).trimEnd());
   out.push('');

@@ -281,6 +281,13 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
         binding: st.binding,
       };
     },
+    resync(k: Knobs) {
+      knobs = { ...k };
+      cont.fswHz = k.fswHz;
+      cont.deadTimeS = k.deadTimeS;
+      cont.vDriveV = k.vDriveV;
+      st.trimW = 0;
+    },
     limitation() {
       if (worstLimited.shortfallW <= 0) return undefined;
       return `demand not met: short by up to ${worstLimited.shortfallW.toFixed(1)} W (at ${worstLimited.tS.toFixed(1)} s), binding constraint ${worstLimited.binding}`;

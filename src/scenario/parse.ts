@@ -2,7 +2,7 @@
  * Scenario text → immutable Scenario. YAML or JSON (JSON is YAML). Unknown keys are rejected;
  * every problem is reported at once as `path: message (unit), got <value>`.
  */
-import { parseDocument } from 'yaml';
+import { LineCounter, parseDocument } from 'yaml';
 import type { z } from 'zod';
 import type { DeviceParams } from '../model/device.ts';
 import { ScenarioError, type ScenarioProblem } from './errors.ts';
@@ -57,10 +57,14 @@ function problemsFromZod(issues: readonly z.core.$ZodIssue[], root: unknown, pre
 
 /** Parse YAML/JSON text into a plain value, or throw ScenarioError with line numbers. */
 export function parseText(text: string): unknown {
-  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true });
+  const lines = new LineCounter();
+  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true, lineCounter: lines });
   if (doc.errors.length > 0) {
     throw new ScenarioError(
-      doc.errors.map((e) => ({ path: '(syntax)', message: `line ${e.linePos?.[0]?.line ?? '?'}: ${e.message.split('\n')[0]}` })),
+      doc.errors.map((e) => {
+        const at = lines.linePos(e.pos[0]);
+        return { path: '(syntax)', message: `line ${at.line}, column ${at.col}: ${e.message.split('\n')[0]}` };
+      }),
     );
   }
   return doc.toJS();

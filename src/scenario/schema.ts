@@ -181,6 +181,9 @@ const profilesSchema = z
     fswHz: profileSchema.optional(),
     deadTimeS: profileSchema.optional(),
     vDriveV: profileSchema.optional(),
+    controlKp: profileSchema.optional(),
+    controlKi: profileSchema.optional(),
+    supervisorOn: profileSchema.optional().describe('1 = supervisor drives the knobs, 0 = manual knobs from the fswHz/deadTimeS/vDriveV profiles'),
   })
   .strict();
 

@@ -23,7 +23,7 @@ import {
 import { DelayLine, type PiConfig, createPiState, piCoefficients, piReset, piStep } from '../control/pi.ts';
 import { ENERGY, OdexStepper, ZohStepper, addEnergies } from './electricalStep.ts';
 import { type SimSystem, samplePeriodS } from './system.ts';
-import { rampActive } from './profiles.ts';
+import { LiveProfile, type Profile, rampActive } from './profiles.ts';
 
 export type SimStatus = 'ok' | 'diverged' | 'interrupted' | 'limited';
 
@@ -65,6 +65,8 @@ export interface SupervisorTask {
   recordFields?(): Record<string, number | string>;
   /** When the demand cannot be met: the binding constraint. */
   limitation?(): string | undefined;
+  /** Take over from manual knobs without a bump (supervisor switched back on). */
+  resync?(knobs: Knobs): void;
 }
 
 export interface SimRecord {
@@ -124,151 +126,229 @@ export interface SimResult {
 
 const DIVERGE_CURRENT_A = 1e4;
 
-export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
-  const sc = sys.scenario;
-  const plant = sys.plant;
-  const net = sys.net;
-  const prof = sys.profiles;
-  const tEnd = opts.durationS ?? sc.sim.durationS;
-  const recDt = opts.recordIntervalS ?? sc.sim.recordIntervalS;
-  const thDt = Math.min(sc.sim.thermalStepS, recDt);
-  const mode = opts.engine ?? sc.sim.engine;
-  const keep = opts.keepRecords ?? true;
-  const sup = opts.supervisor;
-  const warnings = new Set<string>();
-  const records: SimRecord[] = [];
+/** Inputs a live session may change; each change becomes a step breakpoint at the present time. */
+export type LiveInput =
+  | 'heatDemandW' | 'loadROhm' | 'loadIA' | 'vinV' | 'inletC' | 'flowKgPerS'
+  | 'fswHz' | 'deadTimeS' | 'vDriveV' | 'controlKp' | 'controlKi' | 'supervisorOn';
 
-  // ---- context: everything that changes ----
-  let t = 0;
-  const knobs: Knobs = { fswHz: prof.fswHz.valueAt(0), deadTimeS: prof.deadTimeS.valueAt(0), vDriveV: prof.vDriveV.valueAt(0) };
-  const u: AvgInputs = defaultAvgInputs(plant);
-  const readInputs = (tt: number): void => {
+type LiveProfiles = Record<LiveInput, LiveProfile> & { reference: Profile };
+
+/**
+ * A resumable simulation: `advanceUntil(t)` runs whole engine iterations (it never splits one),
+ * so stopping, changing an input and going on gives the same trajectory as a scenario whose
+ * profile has a step at that time. `simulate()` is the run-to-the-end wrapper.
+ */
+export class Simulation {
+  readonly tEndS: number;
+  readonly profiles: LiveProfiles;
+  private readonly sys: SimSystem;
+  private readonly opts: SimOptions;
+  private readonly recDt: number;
+  private readonly thDt: number;
+  private readonly mode: 'auto' | 'odex' | 'zoh';
+  private readonly keep: boolean;
+  private readonly sup: SupervisorTask | undefined;
+  private readonly warnings = new Set<string>();
+  private readonly records: SimRecord[] = [];
+  t = 0;
+  readonly knobs: Knobs;
+  private readonly u: AvgInputs;
+  private readonly temps: Float64Array;
+  private readonly jH: number;
+  private readonly jL: number;
+  private readonly x = new Float64Array(2);
+  private readonly piCfg: { -readonly [K in keyof PiConfig]: PiConfig[K] };
+  private ts: number;
+  private coeffs: { b0: number; b1: number };
+  private readonly pi = createPiState(0);
+  private readonly delay: DelayLine;
+  private filtY = NaN;
+  private readonly odex: OdexStepper;
+  private readonly zoh: ZohStepper;
+  private readonly curLeg: LegResult = newLegResult();
+  private readonly curOuts: AvgOutputs = newAvgOutputs();
+  private readonly dxScratch = new Float64Array(2);
+  private readonly thIdx: ReturnType<typeof thermalInputIndex>;
+  private readonly thU: Float64Array;
+  private readonly thCache = new Map<string, ThermalDiscrete>();
+  private readonly thOut: Float64Array;
+  private readonly accStep = new Float64Array(ENERGY.n);
+  private readonly accTh = new Float64Array(ENERGY.n);
+  private readonly accRec = new Float64Array(ENERGY.n);
+  private readonly accSup = new Float64Array(ENERGY.n);
+  private readonly accTot = new Float64Array(ENERGY.n);
+  private recY = 0;
+  private recDuty = 0;
+  private recTime = 0;
+  private thTime = 0;
+  private supTime = 0;
+  private capOutMs = 0;
+  private capInMs = 0;
+  private tNextSample = 0;
+  private tNextTh: number;
+  private tNextRec: number;
+  private tNextSup: number;
+  status: SimStatus = 'ok';
+  cause: string | undefined;
+  private samples = 0;
+  private skippedS = 0;
+  private odexIntervals = 0;
+  private iterations = 0;
+  private settled = 0;
+  private lastE = 0;
+  private useOdex: boolean;
+  private supWasOn: boolean;
+  private readonly breakProfiles: Profile[];
+  private cachedBreak = -1;
+  private cachedBreakAt = NaN;
+  private finished = false;
+
+  constructor(sys: SimSystem, opts: SimOptions = {}) {
+    const sc = sys.scenario;
+    const plant = sys.plant;
+    const net = sys.net;
+    this.sys = sys;
+    this.opts = opts;
+    this.tEndS = opts.durationS ?? sc.sim.durationS;
+    this.recDt = opts.recordIntervalS ?? sc.sim.recordIntervalS;
+    this.thDt = Math.min(sc.sim.thermalStepS, this.recDt);
+    this.mode = opts.engine ?? sc.sim.engine;
+    this.keep = opts.keepRecords ?? true;
+    this.sup = opts.supervisor;
+    const p = sys.profiles;
+    const live = (q: Profile): LiveProfile => new LiveProfile(q);
+    this.profiles = {
+      heatDemandW: live(p.heatDemandW), loadROhm: live(p.loadROhm), loadIA: live(p.loadIA), vinV: live(p.vinV),
+      inletC: live(p.inletC), flowKgPerS: live(p.flowKgPerS), fswHz: live(p.fswHz), deadTimeS: live(p.deadTimeS),
+      vDriveV: live(p.vDriveV), controlKp: live(p.controlKp), controlKi: live(p.controlKi), supervisorOn: live(p.supervisorOn),
+      reference: p.reference,
+    };
+    const prof = this.profiles;
+    this.breakProfiles = Object.values(prof);
+    this.knobs = { fswHz: prof.fswHz.valueAt(0), deadTimeS: prof.deadTimeS.valueAt(0), vDriveV: prof.vDriveV.valueAt(0) };
+    this.u = defaultAvgInputs(plant);
+    this.temps = new Float64Array(net.nNodes).fill(prof.inletC.valueAt(0));
+    this.jH = net.layout.junction[0];
+    this.jL = net.layout.junction[1];
+    this.u.tjHsC = this.temps[this.jH];
+    this.u.tjLsC = this.temps[this.jL];
+    this.readInputs(0);
+    // Electrical start: the regulated steady state at the initial knobs and temperatures.
+    const ep0 = electricalPoint(plant, this.knobs, this.u.tjHsC, this.u.tjLsC);
+    this.x[0] = ep0.iMeanA;
+    this.x[1] = plant.conv.kind === 'buck' ? ep0.vOutV : ep0.vBusV;
+    this.u.duty = ep0.duty;
+    this.piCfg = { ...sys.pi, kp: prof.controlKp.valueAt(0), ki: prof.controlKi.valueAt(0) };
+    this.ts = samplePeriodS(sys, this.knobs.fswHz);
+    this.coeffs = piCoefficients(this.piCfg, this.ts);
+    piReset(this.pi, ep0.duty);
+    this.delay = new DelayLine(sys.delaySamples, ep0.duty);
+    this.odex = new OdexStepper(plant);
+    this.zoh = new ZohStepper(plant);
+    this.refreshOuts();
+    this.thIdx = thermalInputIndex(net);
+    this.thU = new Float64Array(this.thIdx.nInputs);
+    this.thOut = new Float64Array(net.nNodes);
+    this.tNextTh = this.thDt;
+    this.tNextRec = this.recDt;
+    this.tNextSup = this.sup ? 0 : Infinity;
+    this.useOdex = this.mode === 'odex';
+    this.supWasOn = this.supOn(0);
+  }
+
+  /** Live command: hold an input at `value` from the present time on. */
+  setInput(name: LiveInput, value: number): void {
+    if (!Number.isFinite(value)) throw new Error(`${name}: must be a finite number, got ${value}`);
+    this.profiles[name].setFrom(this.t, value);
+    this.cachedBreakAt = NaN;
+    this.settled = 0;
+  }
+
+  private supOn(t: number): boolean {
+    return this.sup !== undefined && this.profiles.supervisorOn.valueAt(t) >= 0.5;
+  }
+
+  private refreshOuts(): void {
+    averagedDerivatives(this.sys.plant, this.x, this.u, this.dxScratch, this.curLeg, this.curOuts);
+  }
+
+  private readInputs(tt: number): void {
+    const prof = this.profiles;
+    const u = this.u;
     u.vSourceV = prof.vinV.valueAt(tt);
-    if (plant.conv.kind === 'buck') {
-      if (sys.loadIsCurrent) u.loadIA = prof.loadIA.valueAt(tt);
+    if (this.sys.plant.conv.kind === 'buck') {
+      if (this.sys.loadIsCurrent) u.loadIA = prof.loadIA.valueAt(tt);
       else u.loadROhm = prof.loadROhm.valueAt(tt);
     }
-    u.fswHz = knobs.fswHz;
-    u.deadTimeS = knobs.deadTimeS;
-    u.vDriveV = knobs.vDriveV;
-  };
-  const temps = new Float64Array(net.nNodes).fill(prof.inletC.valueAt(0));
-  const jH = net.layout.junction[0];
-  const jL = net.layout.junction[1];
-  u.tjHsC = temps[jH];
-  u.tjLsC = temps[jL];
-  readInputs(0);
-
-  // Electrical start: the regulated steady state at the initial knobs and temperatures.
-  const x = new Float64Array(2);
-  const ep0 = electricalPoint(plant, knobs, u.tjHsC, u.tjLsC);
-  if (plant.conv.kind === 'buck') {
-    x[0] = ep0.iMeanA;
-    x[1] = ep0.vOutV - plant.conv.cout.esrOhm * 0;
-  } else {
-    x[0] = ep0.iMeanA;
-    x[1] = ep0.vBusV;
+    u.fswHz = this.knobs.fswHz;
+    u.deadTimeS = this.knobs.deadTimeS;
+    u.vDriveV = this.knobs.vDriveV;
   }
-  u.duty = ep0.duty;
 
-  const piCfg: PiConfig = { ...sys.pi };
-  let ts = samplePeriodS(sys, knobs.fswHz);
-  let coeffs = piCoefficients(piCfg, ts);
-  const pi = createPiState(ep0.duty);
-  piReset(pi, ep0.duty);
-  const delay = new DelayLine(sys.delaySamples, ep0.duty);
-  let filtY = NaN;
-
-  const odex = new OdexStepper(plant);
-  const zoh = new ZohStepper(plant);
-  const curLeg: LegResult = newLegResult();
-  const curOuts: AvgOutputs = newAvgOutputs();
-  const dxScratch = new Float64Array(2);
-  const refreshOuts = (): void => { averagedDerivatives(plant, x, u, dxScratch, curLeg, curOuts); };
-  refreshOuts();
-
-  const thIdx = thermalInputIndex(net);
-  const thU = new Float64Array(thIdx.nInputs);
-  const thCache = new Map<string, ThermalDiscrete>();
-  const thOut = new Float64Array(net.nNodes);
-
-  const accStep = new Float64Array(ENERGY.n);
-  const accTh = new Float64Array(ENERGY.n);
-  const accRec = new Float64Array(ENERGY.n);
-  const accSup = new Float64Array(ENERGY.n);
-  const accTot = new Float64Array(ENERGY.n);
-  let recY = 0, recDuty = 0, recTime = 0;
-  let thTime = 0, supTime = 0;
-  let capOutMs = 0, capInMs = 0;
-
-  let tNextSample = 0;
-  let tNextTh = thDt;
-  let tNextRec = recDt;
-  let tNextSup = sup ? 0 : Infinity;
-  let status: SimStatus = 'ok';
-  let cause: string | undefined;
-  let samples = 0, skippedS = 0, odexIntervals = 0, iterations = 0;
-  let settled = 0;
-  let lastE = 0;
-  let useOdex = mode === 'odex';
-
-  const breakProfiles = [prof.loadROhm, prof.loadIA, prof.vinV, prof.inletC, prof.flowKgPerS, prof.heatDemandW, prof.reference]
-    .concat(sup ? [] : [prof.fswHz, prof.deadTimeS, prof.vDriveV])
-    .filter((p) => !p.constant);
-  let cachedBreak = -1;
-  let cachedBreakAt = NaN;
-  const nextBreak = (tt: number): number => {
-    if (tt >= cachedBreakAt || Number.isNaN(cachedBreakAt) || tt < cachedBreak) {
+  private nextBreak(tt: number): number {
+    if (Number.isNaN(this.cachedBreakAt) || tt >= this.cachedBreakAt || tt < this.cachedBreak) {
       let b = Infinity;
-      for (const p of breakProfiles) b = Math.min(b, p.nextBreakS(tt));
-      cachedBreak = tt;
-      cachedBreakAt = b;
+      for (const p of this.breakProfiles) if (!p.constant) b = Math.min(b, p.nextBreakS(tt));
+      this.cachedBreak = tt;
+      this.cachedBreakAt = b;
     }
-    return cachedBreakAt;
-  };
-  const anyRamp = (tt: number): boolean =>
-    rampActive(prof.loadROhm, tt) || rampActive(prof.loadIA, tt) || rampActive(prof.vinV, tt) || rampActive(prof.reference, tt) ||
-    (!sup && (rampActive(prof.fswHz, tt) || rampActive(prof.deadTimeS, tt) || rampActive(prof.vDriveV, tt)));
+    return this.cachedBreakAt;
+  }
 
-  const thermalStep = (dtIn: number): void => {
+  private anyRamp(tt: number): boolean {
+    for (const p of this.breakProfiles) if (rampActive(p, tt)) return true;
+    return false;
+  }
+
+  private thermalStep(dtIn: number): void {
     let dt = dtIn;
     if (dt <= 0) return;
-    const flow = prof.flowKgPerS.valueAt(t);
+    const net = this.sys.net;
+    const prof = this.profiles;
+    const flow = prof.flowKgPerS.valueAt(this.t);
     // Floating-point drift in the accumulated step would defeat the cache: snap to the nominal step.
-    if (Math.abs(dt - thDt) < 1e-9 * thDt) dt = thDt;
+    if (Math.abs(dt - this.thDt) < 1e-9 * this.thDt) dt = this.thDt;
     const key = `${flow}|${dt}`;
-    let disc = thCache.get(key);
+    let disc = this.thCache.get(key);
     if (!disc) {
-      if (thCache.size > 64) thCache.clear();
+      if (this.thCache.size > 64) this.thCache.clear();
       disc = discretizeThermal(net, flow, dt);
-      thCache.set(key, disc);
+      this.thCache.set(key, disc);
     }
-    thU[thIdx.deviceLossW] = accTh[ENERGY.hs] / dt;
-    thU[thIdx.deviceLossW + 1] = accTh[ENERGY.ls] / dt;
-    thU[thIdx.sinkExtraW] = (plant.passiveToPlateFraction * accTh[ENERGY.passive]) / dt;
-    thU[thIdx.inletC] = prof.inletC.valueAt(t);
-    thU[thIdx.ambientC] = sc.thermal.ambientC;
-    stepThermalDiscrete(disc, temps, thU, thOut);
-    temps.set(thOut);
-    accTh.fill(0);
-    u.tjHsC = temps[jH];
-    u.tjLsC = temps[jL];
-  };
+    const thU = this.thU;
+    const acc = this.accTh;
+    thU[this.thIdx.deviceLossW] = acc[ENERGY.hs] / dt;
+    thU[this.thIdx.deviceLossW + 1] = acc[ENERGY.ls] / dt;
+    thU[this.thIdx.sinkExtraW] = (this.sys.plant.passiveToPlateFraction * acc[ENERGY.passive]) / dt;
+    thU[this.thIdx.inletC] = prof.inletC.valueAt(this.t);
+    thU[this.thIdx.ambientC] = this.sys.scenario.thermal.ambientC;
+    stepThermalDiscrete(disc, this.temps, thU, this.thOut);
+    this.temps.set(this.thOut);
+    acc.fill(0);
+    this.u.tjHsC = this.temps[this.jH];
+    this.u.tjLsC = this.temps[this.jL];
+  }
 
-  const heatNow = (): number => heatToCoolantW(net, temps, prof.inletC.valueAt(t), prof.flowKgPerS.valueAt(t));
+  private heatNow(): number {
+    return heatToCoolantW(this.sys.net, this.temps, this.profiles.inletC.valueAt(this.t), this.profiles.flowKgPerS.valueAt(this.t));
+  }
 
-  const emitRecord = (): void => {
-    const dt = recTime > 0 ? recTime : 1;
-    const pin = accRec[ENERGY.pin] / dt;
-    const pout = accRec[ENERGY.pout] / dt;
-    const hs = accRec[ENERGY.hs] / dt;
-    const ls = accRec[ENERGY.ls] / dt;
-    const passive = accRec[ENERGY.passive] / dt;
-    const gd = accRec[ENERGY.gateDriver] / dt;
+  private emitRecord(): void {
+    const dt = this.recTime > 0 ? this.recTime : 1;
+    const a = this.accRec;
+    const pin = a[ENERGY.pin] / dt;
+    const pout = a[ENERGY.pout] / dt;
+    const hs = a[ENERGY.hs] / dt;
+    const ls = a[ENERGY.ls] / dt;
+    const passive = a[ENERGY.passive] / dt;
+    const gd = a[ENERGY.gateDriver] / dt;
+    const prof = this.profiles;
+    const net = this.sys.net;
+    const t = this.t;
     const r: SimRecord = {
       tS: t,
       demandW: prof.heatDemandW.valueAt(t),
-      heatToCoolantW: heatNow(),
+      heatToCoolantW: this.heatNow(),
       pinW: pin,
       poutW: pout,
       totalLossW: hs + ls + passive + gd,
@@ -278,192 +358,270 @@ export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
       passiveLossW: passive,
       gateDriverW: gd,
       efficiency: pin > 0 ? pout / pin : 0,
-      yMeasured: recY / dt,
+      yMeasured: this.recY / dt,
       reference: prof.reference.valueAt(t),
-      duty: recDuty / dt,
-      fswHz: knobs.fswHz,
-      deadTimeS: knobs.deadTimeS,
-      vDriveV: knobs.vDriveV,
-      tjHsC: temps[jH],
-      tjLsC: temps[jL],
-      heatsinkC: temps[net.layout.heatsink],
-      coolantC: temps[net.layout.coolant],
+      duty: this.recDuty / dt,
+      fswHz: this.knobs.fswHz,
+      deadTimeS: this.knobs.deadTimeS,
+      vDriveV: this.knobs.vDriveV,
+      tjHsC: this.temps[this.jH],
+      tjLsC: this.temps[this.jL],
+      heatsinkC: this.temps[net.layout.heatsink],
+      coolantC: this.temps[net.layout.coolant],
       inletC: prof.inletC.valueAt(t),
-      loadROhm: u.loadROhm,
+      loadROhm: this.u.loadROhm,
     };
-    if (sup?.recordFields) Object.assign(r, sup.recordFields());
-    if (keep) records.push(r);
-    opts.onRecord?.(r);
-    accRec.fill(0);
-    recY = recDuty = recTime = 0;
-  };
+    if (this.sup?.recordFields) Object.assign(r, this.sup.recordFields());
+    if (this.keep) this.records.push(r);
+    this.opts.onRecord?.(r);
+    a.fill(0);
+    this.recY = this.recDuty = this.recTime = 0;
+  }
 
-  const advance = (dt: number): boolean => {
-    accStep.fill(0);
-    if (useOdex) {
-      odexIntervals++;
-      if (odex.advance(x, u, dt, accStep) === 'failed') return false;
-      refreshOuts();
+  private accumulate(dt: number): void {
+    const s = this.accStep;
+    for (let k = 0; k < ENERGY.n; k++) {
+      this.accTh[k] += s[k];
+      this.accRec[k] += s[k];
+      this.accSup[k] += s[k];
+      this.accTot[k] += s[k];
+    }
+    const o = this.curOuts;
+    this.capOutMs += o.capOutRmsA * o.capOutRmsA * dt;
+    this.capInMs += o.capInRmsA * o.capInRmsA * dt;
+    this.recY += o.yMeasured * dt;
+    this.recDuty += this.u.duty * dt;
+    this.recTime += dt;
+    this.thTime += dt;
+    this.supTime += dt;
+  }
+
+  private advance(dt: number): boolean {
+    const x = this.x;
+    const u = this.u;
+    this.accStep.fill(0);
+    if (this.useOdex) {
+      this.odexIntervals++;
+      if (this.odex.advance(x, u, dt, this.accStep) === 'failed') return false;
+      this.refreshOuts();
     } else {
+      const zoh = this.zoh;
       if (!zoh.stillValid(x, u, dt)) {
         zoh.linearize(x, u, dt);
-        curLeg.semiW = zoh.pointLeg.semiW;
-        Object.assign(curOuts, zoh.pointOuts);
-        Object.assign(curLeg.hs, zoh.pointLeg.hs);
-        Object.assign(curLeg.ls, zoh.pointLeg.ls);
-        if (mode === 'auto' && zoh.nonlinear) {
-          useOdex = true;
-          return advance(dt);
+        Object.assign(this.curOuts, zoh.pointOuts);
+        Object.assign(this.curLeg.hs, zoh.pointLeg.hs);
+        Object.assign(this.curLeg.ls, zoh.pointLeg.ls);
+        this.curLeg.semiW = zoh.pointLeg.semiW;
+        if (this.mode === 'auto' && zoh.nonlinear) {
+          this.useOdex = true;
+          return this.advance(dt);
         }
       }
       zoh.step(x, u.duty);
-      addEnergies(accStep, curOuts, curLeg, dt);
+      addEnergies(this.accStep, this.curOuts, this.curLeg, dt);
     }
-    for (let k = 0; k < ENERGY.n; k++) {
-      accTh[k] += accStep[k];
-      accRec[k] += accStep[k];
-      accSup[k] += accStep[k];
-      accTot[k] += accStep[k];
-    }
-    capOutMs += curOuts.capOutRmsA * curOuts.capOutRmsA * dt;
-    capInMs += curOuts.capInRmsA * curOuts.capInRmsA * dt;
-    recY += curOuts.yMeasured * dt;
-    recDuty += u.duty * dt;
-    recTime += dt;
-    thTime += dt;
-    supTime += dt;
+    this.accumulate(dt);
     return Number.isFinite(x[0]) && Number.isFinite(x[1]);
-  };
+  }
 
-  const checkDivergence = (): boolean => {
-    if (!Number.isFinite(x[0]) || !Number.isFinite(x[1])) { cause = 'electrical state is not a number'; return true; }
-    if (Math.abs(x[0]) > DIVERGE_CURRENT_A) { cause = `current ${x[0].toExponential(2)} A beyond ${DIVERGE_CURRENT_A} A`; return true; }
+  private diverged(): boolean {
+    const x = this.x;
+    const u = this.u;
+    if (!Number.isFinite(x[0]) || !Number.isFinite(x[1])) { this.cause = 'electrical state is not a number'; return true; }
+    if (Math.abs(x[0]) > DIVERGE_CURRENT_A) { this.cause = `current ${x[0].toExponential(2)} A beyond ${DIVERGE_CURRENT_A} A`; return true; }
     const vMax = 3 * Math.max(u.vSourceV, 1);
-    if (Math.abs(x[1]) > vMax) { cause = `voltage ${x[1].toFixed(1)} V beyond ${vMax.toFixed(0)} V`; return true; }
+    if (Math.abs(x[1]) > vMax) { this.cause = `voltage ${x[1].toFixed(1)} V beyond ${vMax.toFixed(0)} V`; return true; }
     const tjMax = Math.max(u.tjHsC, u.tjLsC);
-    if (tjMax > sc.limits.runawayTjC) { cause = `thermal runaway: junction ${tjMax.toFixed(1)} °C above ${sc.limits.runawayTjC} °C`; return true; }
+    const lim = this.sys.scenario.limits.runawayTjC;
+    if (tjMax > lim) { this.cause = `thermal runaway: junction ${tjMax.toFixed(1)} °C above ${lim} °C`; return true; }
     return false;
-  };
+  }
 
-  let sinceStopPoll = 0;
-  while (t < tEnd - 1e-12) {
-    iterations++;
-    if (++sinceStopPoll >= 4096) {
-      sinceStopPoll = 0;
-      opts.onProgress?.(t, tEnd);
-      if (opts.shouldStop?.()) { status = 'interrupted'; cause = `stopped at ${t.toFixed(3)} s`; break; }
+  private supervisorTick(): void {
+    const sup = this.sup!;
+    const prof = this.profiles;
+    const net = this.sys.net;
+    const t = this.t;
+    const a = this.accSup;
+    const st = this.supTime;
+    const dt = st > 0 ? st : 1;
+    const o = this.curOuts;
+    const view: EngineView = {
+      tS: t, dtS: st, demandW: prof.heatDemandW.valueAt(t), knobs: { ...this.knobs },
+      tjHsC: this.temps[this.jH], tjLsC: this.temps[this.jL],
+      heatsinkC: this.temps[net.layout.heatsink], coolantC: this.temps[net.layout.coolant], inletC: prof.inletC.valueAt(t),
+      flowKgPerS: prof.flowKgPerS.valueAt(t), heatToCoolantW: this.heatNow(),
+      pinW: st > 0 ? a[ENERGY.pin] / dt : o.pinW,
+      poutW: st > 0 ? a[ENERGY.pout] / dt : o.poutW,
+      semiW: st > 0 ? (a[ENERGY.hs] + a[ENERGY.ls]) / dt : o.semiW,
+      totalLossW: st > 0 ? (a[ENERGY.hs] + a[ENERGY.ls] + a[ENERGY.passive] + a[ENERGY.gateDriver]) / dt : o.totalLossW,
+      capOutRmsA: st > 0 ? Math.sqrt(this.capOutMs / dt) : o.capOutRmsA,
+      capInRmsA: st > 0 ? Math.sqrt(this.capInMs / dt) : o.capInRmsA,
+      vSourceV: this.u.vSourceV, loadROhm: this.u.loadROhm, loadIA: this.u.loadIA,
+    };
+    const k = sup.tick(view);
+    this.knobs.fswHz = k.fswHz;
+    this.knobs.deadTimeS = k.deadTimeS;
+    this.knobs.vDriveV = k.vDriveV;
+    this.readInputs(t);
+    a.fill(0);
+    this.supTime = 0;
+    this.capOutMs = this.capInMs = 0;
+    this.tNextSup = t + sup.tickS;
+  }
+
+  /** One engine iteration: due discrete updates at t, then integrate to the next event. */
+  private iterate(): boolean {
+    const prof = this.profiles;
+    const x = this.x;
+    const u = this.u;
+    const t = this.t;
+    this.iterations++;
+    // 1. discrete updates due at t, in a fixed order
+    const supOn = this.supOn(t);
+    if (!supOn) {
+      this.knobs.fswHz = prof.fswHz.valueAt(t);
+      this.knobs.deadTimeS = prof.deadTimeS.valueAt(t);
+      this.knobs.vDriveV = prof.vDriveV.valueAt(t);
+    } else if (!this.supWasOn) {
+      this.sup!.resync?.(this.knobs);
+      this.tNextSup = t;
     }
-    // 1. discrete updates due at t
-    if (!sup) {
-      knobs.fswHz = prof.fswHz.valueAt(t);
-      knobs.deadTimeS = prof.deadTimeS.valueAt(t);
-      knobs.vDriveV = prof.vDriveV.valueAt(t);
-    }
-    readInputs(t);
-    if (t >= tNextTh - 1e-12) { thermalStep(thTime); thTime = 0; tNextTh = t + thDt; refreshOuts(); }
-    if (t >= tNextRec - 1e-12) { emitRecord(); tNextRec += recDt; }
-    if (sup && t >= tNextSup - 1e-12) {
-      const dt = supTime > 0 ? supTime : 1;
-      const view: EngineView = {
-        tS: t, dtS: supTime, demandW: prof.heatDemandW.valueAt(t), knobs: { ...knobs }, tjHsC: temps[jH], tjLsC: temps[jL],
-        heatsinkC: temps[net.layout.heatsink], coolantC: temps[net.layout.coolant], inletC: prof.inletC.valueAt(t),
-        flowKgPerS: prof.flowKgPerS.valueAt(t), heatToCoolantW: heatNow(),
-        pinW: supTime > 0 ? accSup[ENERGY.pin] / dt : curOuts.pinW, poutW: supTime > 0 ? accSup[ENERGY.pout] / dt : curOuts.poutW,
-        semiW: supTime > 0 ? (accSup[ENERGY.hs] + accSup[ENERGY.ls]) / dt : curOuts.semiW,
-        totalLossW: supTime > 0 ? (accSup[ENERGY.hs] + accSup[ENERGY.ls] + accSup[ENERGY.passive] + accSup[ENERGY.gateDriver]) / dt : curOuts.totalLossW,
-        capOutRmsA: supTime > 0 ? Math.sqrt(capOutMs / dt) : curOuts.capOutRmsA, capInRmsA: supTime > 0 ? Math.sqrt(capInMs / dt) : curOuts.capInRmsA,
-        vSourceV: u.vSourceV, loadROhm: u.loadROhm, loadIA: u.loadIA,
-      };
-      const k = sup.tick(view);
-      knobs.fswHz = k.fswHz;
-      knobs.deadTimeS = k.deadTimeS;
-      knobs.vDriveV = k.vDriveV;
-      readInputs(t);
-      accSup.fill(0);
-      supTime = 0;
-      capOutMs = capInMs = 0;
-      tNextSup = t + sup.tickS;
-    }
-    const newTs = samplePeriodS(sys, knobs.fswHz);
-    if (newTs !== ts) {
-      ts = newTs;
-      // Continuous-basis gains are rescaled with the sample period; per-sample gains are not.
-      coeffs = piCoefficients(piCfg, ts);
-      if (tNextSample > t + ts) tNextSample = t + ts;
-    }
-    if (t >= tNextSample - 1e-12) {
-      samples++;
-      let y = measured(sys, x, u);
-      if (sys.sensorFilterHz !== undefined) {
-        const a = 1 - Math.exp(-2 * Math.PI * sys.sensorFilterHz * ts);
-        filtY = Number.isNaN(filtY) ? y : filtY + a * (y - filtY);
-        y = filtY;
+    this.supWasOn = supOn;
+    this.readInputs(t);
+    if (t >= this.tNextTh - 1e-12) { this.thermalStep(this.thTime); this.thTime = 0; this.tNextTh = t + this.thDt; this.refreshOuts(); }
+    if (t >= this.tNextRec - 1e-12) { this.emitRecord(); this.tNextRec += this.recDt; }
+    if (supOn && t >= this.tNextSup - 1e-12) this.supervisorTick();
+    if (!prof.controlKp.constant || !prof.controlKi.constant) {
+      const kp = prof.controlKp.valueAt(t);
+      const ki = prof.controlKi.valueAt(t);
+      if (kp !== this.piCfg.kp || ki !== this.piCfg.ki) {
+        this.piCfg.kp = kp;
+        this.piCfg.ki = ki;
+        this.coeffs = piCoefficients(this.piCfg, this.ts);
       }
-      const e = prof.reference.valueAt(t) - y;
-      const cmd = piStep(piCfg, coeffs, pi, e);
-      u.duty = delay.push(cmd);
-      tNextSample = t + ts;
-      // Settled: error and state motion negligible for several samples in a row.
-      const still = Math.abs(e) < 1e-6 * (1 + Math.abs(prof.reference.valueAt(t))) && Math.abs(e - lastE) < 1e-7 * (1 + Math.abs(y));
-      settled = still ? settled + 1 : 0;
-      lastE = e;
-      if (mode === 'auto' && useOdex && samples % 64 === 0) {
-        zoh.linearize(x, u, ts);
-        useOdex = zoh.nonlinear;
+    }
+    const newTs = samplePeriodS(this.sys, this.knobs.fswHz);
+    if (newTs !== this.ts) {
+      this.ts = newTs;
+      // Continuous-basis gains are rescaled with the sample period; per-sample gains are not.
+      this.coeffs = piCoefficients(this.piCfg, newTs);
+      if (this.tNextSample > t + newTs) this.tNextSample = t + newTs;
+    }
+    if (t >= this.tNextSample - 1e-12) {
+      this.samples++;
+      let y = measured(this.sys, x, u);
+      const fHz = this.sys.sensorFilterHz;
+      if (fHz !== undefined) {
+        const a = 1 - Math.exp(-2 * Math.PI * fHz * this.ts);
+        this.filtY = Number.isNaN(this.filtY) ? y : this.filtY + a * (y - this.filtY);
+        y = this.filtY;
+      }
+      const ref = prof.reference.valueAt(t);
+      const e = ref - y;
+      const cmd = piStep(this.piCfg, this.coeffs, this.pi, e);
+      u.duty = this.delay.push(cmd);
+      this.tNextSample = t + this.ts;
+      // Settled: error and its motion negligible for several samples in a row.
+      const still = Math.abs(e) < 1e-6 * (1 + Math.abs(ref)) && Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y));
+      this.settled = still ? this.settled + 1 : 0;
+      this.lastE = e;
+      if (this.mode === 'auto' && this.useOdex && this.samples % 64 === 0) {
+        this.zoh.linearize(x, u, this.ts);
+        this.useOdex = this.zoh.nonlinear;
       }
     }
     // 2. next event
-    const tEvent = Math.min(tNextTh, tNextRec, tNextSup, nextBreak(t), tEnd);
-    let tStop = Math.min(tNextSample, tEvent);
-    if (settled >= 8 && !useOdex && !anyRamp(t) && prof.reference.constant) {
+    const tEvent = Math.min(this.tNextTh, this.tNextRec, supOn ? this.tNextSup : Infinity, this.nextBreak(t), this.tEndS);
+    const tStop = Math.min(this.tNextSample, tEvent);
+    if (this.settled >= 8 && !this.useOdex && prof.reference.constant && !this.anyRamp(t)) {
       // 3'. settled: jump to the next non-sample event holding the equilibrium.
-      tStop = tEvent;
-      skippedS += tStop - t;
-      tNextSample = tStop;
-      refreshOuts();
-      const dt = tStop - t;
-      accStep.fill(0);
-      addEnergies(accStep, curOuts, curLeg, dt);
-      for (let k = 0; k < ENERGY.n; k++) { accTh[k] += accStep[k]; accRec[k] += accStep[k]; accSup[k] += accStep[k]; accTot[k] += accStep[k]; }
-      capOutMs += curOuts.capOutRmsA * curOuts.capOutRmsA * dt;
-      capInMs += curOuts.capInRmsA * curOuts.capInRmsA * dt;
-      recY += curOuts.yMeasured * dt; recDuty += u.duty * dt; recTime += dt; thTime += dt; supTime += dt;
-      t = tStop;
-      settled = 4; // re-check motion after the next event before jumping again
-      continue;
+      const dt = tEvent - t;
+      this.skippedS += dt;
+      this.tNextSample = tEvent;
+      this.refreshOuts();
+      this.accStep.fill(0);
+      addEnergies(this.accStep, this.curOuts, this.curLeg, dt);
+      this.accumulate(dt);
+      this.t = tEvent;
+      this.settled = 4; // re-check motion after the next event before jumping again
+      return true;
     }
     // 3. integrate
     const dt = tStop - t;
-    if (dt > 0) {
-      if (!advance(dt)) { status = 'diverged'; cause = cause ?? `integration failed at ${t.toFixed(6)} s`; break; }
-      t = tStop;
-    } else {
-      t = tStop;
+    if (dt > 0 && !this.advance(dt)) {
+      this.status = 'diverged';
+      this.cause = this.cause ?? `integration failed at ${t.toFixed(6)} s`;
+      return false;
     }
-    if (checkDivergence()) { status = 'diverged'; break; }
+    this.t = tStop;
+    if (this.diverged()) { this.status = 'diverged'; return false; }
+    return true;
   }
-  if (status === 'ok' || status === 'interrupted' || status === 'diverged') {
-    if (recTime > 0) emitRecord();
+
+  /** Run whole iterations until t ≥ tS (or the end, divergence, or a stop request). */
+  advanceUntil(tS: number): SimStatus {
+    if (this.finished || this.status !== 'ok') return this.status;
+    const target = Math.min(tS, this.tEndS);
+    let poll = 0;
+    while (this.t < target - 1e-12) {
+      if (++poll >= 4096) {
+        poll = 0;
+        this.opts.onProgress?.(this.t, this.tEndS);
+        if (this.opts.shouldStop?.()) {
+          this.status = 'interrupted';
+          this.cause = `stopped at ${this.t.toFixed(3)} s`;
+          break;
+        }
+      }
+      if (!this.iterate()) break;
+    }
+    return this.status;
   }
-  if (status === 'ok' && sup?.limitation) {
-    const lim = sup.limitation();
-    if (lim) { status = 'limited'; cause = lim; }
+
+  get done(): boolean {
+    return this.finished || this.status !== 'ok' || this.t >= this.tEndS - 1e-12;
   }
-  if (useOdex && mode === 'auto') warnings.add('strongly nonlinear stretches (saturation, DCM or current reversal) were integrated with odex');
-  return {
-    status,
-    tEndS: t,
-    cause,
-    records,
-    warnings: [...warnings],
-    energiesJ: {
-      pin: accTot[ENERGY.pin], pout: accTot[ENERGY.pout], hs: accTot[ENERGY.hs], ls: accTot[ENERGY.ls],
-      passive: accTot[ENERGY.passive], gateDriver: accTot[ENERGY.gateDriver], store: accTot[ENERGY.store],
-    },
-    stats: { samples, skippedS, linearizations: zoh.linearizations, odexIntervals, iterations },
-    finalX: [x[0], x[1]],
-    finalTempsC: [...temps],
-  };
+
+  /** Latest plant state for live views (no record needed). */
+  snapshot(): { tS: number; x: number[]; tempsC: number[]; duty: number; knobs: Knobs; outs: AvgOutputs } {
+    return { tS: this.t, x: [this.x[0], this.x[1]], tempsC: [...this.temps], duty: this.u.duty, knobs: { ...this.knobs }, outs: { ...this.curOuts } };
+  }
+
+  /** Close the run: flush the last partial record and settle the status. */
+  finish(): SimResult {
+    if (!this.finished) {
+      this.finished = true;
+      if (this.recTime > 0) this.emitRecord();
+      if (this.status === 'ok' && this.sup?.limitation) {
+        const lim = this.sup.limitation();
+        if (lim) { this.status = 'limited'; this.cause = lim; }
+      }
+      if (this.mode === 'auto' && this.odexIntervals > 0)
+        this.warnings.add('strongly nonlinear stretches (saturation, DCM or current reversal) were integrated with odex');
+    }
+    const a = this.accTot;
+    return {
+      status: this.status,
+      tEndS: this.t,
+      cause: this.cause,
+      records: this.records,
+      warnings: [...this.warnings],
+      energiesJ: {
+        pin: a[ENERGY.pin], pout: a[ENERGY.pout], hs: a[ENERGY.hs], ls: a[ENERGY.ls],
+        passive: a[ENERGY.passive], gateDriver: a[ENERGY.gateDriver], store: a[ENERGY.store],
+      },
+      stats: { samples: this.samples, skippedS: this.skippedS, linearizations: this.zoh.linearizations, odexIntervals: this.odexIntervals, iterations: this.iterations },
+      finalX: [this.x[0], this.x[1]],
+      finalTempsC: [...this.temps],
+    };
+  }
+}
+
+export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
+  const sim = new Simulation(sys, opts);
+  sim.advanceUntil(sim.tEndS);
+  return sim.finish();
 }
 
 /** The regulated quantity from the states without a leg evaluation: buck output voltage (ESR divider with the load) or half-bridge current. */

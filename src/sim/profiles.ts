@@ -1,6 +1,10 @@
 /**
  * Scenario profiles as functions of time: a constant, a held step list, or a linear ramp between
- * breakpoints (held before the first and after the last). The engine lands on every breakpoint.
+ * breakpoints. Before its first breakpoint a step profile holds the scenario's own value; a ramp
+ * holds its first value. The engine lands on every breakpoint.
+ *
+ * A live session changes an input by appending a step at the present time (`LiveProfile.setFrom`),
+ * so the change is itself a breakpoint and the session replays exactly as a step profile.
  */
 import type { ProfileSpec } from '../scenario/schema.ts';
 
@@ -15,6 +19,19 @@ export function constantProfile(v: number): Profile {
   return { valueAt: () => v, nextBreakS: () => Infinity, constant: true };
 }
 
+/** Index of the last breakpoint at or before t (−1 before the first). */
+function lastAtOrBefore(ts: readonly number[], t: number): number {
+  if (ts.length === 0 || t < ts[0]) return -1;
+  let lo = 0;
+  let hi = ts.length - 1;
+  while (lo < hi) {
+    const mid = (lo + hi + 1) >> 1;
+    if (ts[mid] <= t) lo = mid;
+    else hi = mid - 1;
+  }
+  return lo;
+}
+
 export function makeProfile(spec: ProfileSpec | undefined, fallback: number): Profile {
   if (spec === undefined) return constantProfile(fallback);
   if (typeof spec === 'number') return constantProfile(spec);
@@ -22,29 +39,17 @@ export function makeProfile(spec: ProfileSpec | undefined, fallback: number): Pr
   const pts = ramp ? spec.ramp : spec.step;
   const ts = pts.map((p) => p[0]);
   const vs = pts.map((p) => p[1]);
-  // Before the first breakpoint a step profile holds the fallback (the scenario's own value); a ramp holds its first value.
-  const index = (t: number): number => {
-    let lo = 0;
-    let hi = ts.length - 1;
-    if (t < ts[0]) return -1;
-    while (lo < hi) {
-      const mid = (lo + hi + 1) >> 1;
-      if (ts[mid] <= t) lo = mid;
-      else hi = mid - 1;
-    }
-    return lo;
-  };
   return {
     constant: false,
     valueAt(t: number): number {
-      const i = index(t);
+      const i = lastAtOrBefore(ts, t);
       if (i < 0) return ramp ? vs[0] : fallback;
       if (!ramp || i === ts.length - 1) return vs[i];
       const f = (t - ts[i]) / (ts[i + 1] - ts[i]);
       return vs[i] + f * (vs[i + 1] - vs[i]);
     },
     nextBreakS(t: number): number {
-      const i = index(t);
+      const i = lastAtOrBefore(ts, t);
       return i + 1 < ts.length ? ts[i + 1] : Infinity;
     },
   };
@@ -53,7 +58,42 @@ export function makeProfile(spec: ProfileSpec | undefined, fallback: number): Pr
 /** True while a ramp is moving at tS (the engine must then step inputs finely). */
 export function rampActive(p: Profile, tS: number): boolean {
   if (p.constant) return false;
-  const a = p.valueAt(tS);
-  const b = p.valueAt(tS + 1e-9);
-  return a !== b;
+  return p.valueAt(tS) !== p.valueAt(tS + 1e-9);
+}
+
+/** A profile that live commands can override from a given time on. */
+export class LiveProfile implements Profile {
+  private readonly ts: number[] = [];
+  private readonly vs: number[] = [];
+  constructor(private readonly base: Profile) {}
+
+  get constant(): boolean {
+    return this.base.constant && this.ts.length === 0;
+  }
+
+  /** Hold `value` from `tS` on (replacing any later live steps). */
+  setFrom(tS: number, value: number): void {
+    while (this.ts.length > 0 && this.ts[this.ts.length - 1] >= tS) {
+      this.ts.pop();
+      this.vs.pop();
+    }
+    this.ts.push(tS);
+    this.vs.push(value);
+  }
+
+  valueAt(t: number): number {
+    const i = lastAtOrBefore(this.ts, t);
+    return i < 0 ? this.base.valueAt(t) : this.vs[i];
+  }
+
+  nextBreakS(t: number): number {
+    const i = lastAtOrBefore(this.ts, t);
+    const own = i + 1 < this.ts.length ? this.ts[i + 1] : Infinity;
+    return this.ts.length > 0 && t >= this.ts[0] ? own : Math.min(own, this.base.nextBreakS(t));
+  }
+
+  /** The live steps, as `[tS, value]` pairs. */
+  steps(): Array<[number, number]> {
+    return this.ts.map((t, i) => [t, this.vs[i]]);
+  }
 }

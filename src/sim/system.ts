@@ -22,6 +22,10 @@ export interface SimProfiles {
   readonly fswHz: Profile;
   readonly deadTimeS: Profile;
   readonly vDriveV: Profile;
+  readonly controlKp: Profile;
+  readonly controlKi: Profile;
+  /** 1 when the supervisor drives the knobs, 0 for manual knobs. */
+  readonly supervisorOn: Profile;
 }
 
 export interface SimSystem {
@@ -64,6 +68,9 @@ export function buildSystem(scenario: Scenario): SimSystem {
     fswHz: makeProfile(p.fswHz, scenario.pwm.fswHz),
     deadTimeS: makeProfile(p.deadTimeS, scenario.pwm.deadTimeS),
     vDriveV: makeProfile(p.vDriveV, scenario.gateDrive.vDriveV),
+    controlKp: makeProfile(p.controlKp, ctl.kp),
+    controlKi: makeProfile(p.controlKi, ctl.ki),
+    supervisorOn: makeProfile(p.supervisorOn, scenario.supervisor?.enabled ? 1 : 0),
   };
   return Object.freeze({
     scenario,

@@ -1,18 +1,21 @@
 /**
- * Matrix exponential and exact zero-order-hold discretization of ẋ = A·x + B·u.
+ * Matrix exponential and exact zero-order-hold discretization of ẋ = A·x + B·u for general
+ * (non-symmetric) small dense systems. The thermal network itself uses the modal form in
+ * thermalLti.ts, which stays accurate when stages differ in speed by many decades; this one is
+ * kept as an independent cross-check and for systems without that symmetric structure.
  */
 
 import { infNorm, matMul, solveLinear } from './denseLinalg.ts';
 
 const PADE_ORDER = 6;
-/** With ‖A/2^s‖∞ ≤ 1/2 the [6/6] Padé error bound is ≈ 3.4e−16 (Golub & Van Loan,
- * Matrix Computations, 4th ed., §9.3.1, Algorithm 9.3.1 and its error bound). */
+/** With ‖A/2^s‖∞ ≤ 1/2 the [q/q] Padé bound 2^(3−2q)·(q!)²/((2q)!·(2q+1)!) is ≈ 3.4e−16 for q = 6. */
 const SCALED_NORM_MAX = 0.5;
 
 /**
  * e^A for a row-major n×n matrix by scaling and squaring with a diagonal [6/6] Padé
- * approximant (Golub & Van Loan, Matrix Computations, §9.3.1; Moler & Van Loan, SIAM Review
- * 45(1), 2003, "method 3").
+ * approximant (Moler & Van Loan, "Nineteen dubious ways to compute the exponential of a
+ * matrix, twenty-five years later", SIAM Review 45(1), 2003, methods 2–3; also Golub & Van
+ * Loan, Matrix Computations). Overscaling caveat: the squaring count follows the fastest mode.
  */
 export function expm(a: Float64Array, n: number): Float64Array {
   if (a.length !== n * n) throw new Error(`expm: a.length must be n*n = ${n * n}, got ${a.length}`);

@@ -9,13 +9,12 @@
  */
 
 import { requireFinite, requireNonNegative } from './checks.ts';
-import { fosterToCauer, type CauerNetwork } from './foster.ts';
 import { solveLinear } from './denseLinalg.ts';
+import { fosterToCauer, type CauerNetwork } from './foster.ts';
+import { thermalConductanceSystem, thermalInputVector } from './thermalLti.ts';
 import { validateThermalSpec, type ThermalSpec } from './thermalSpec.ts';
 
 export type { DeviceThermalSpec, JunctionCaseSpec, ThermalSpec } from './thermalSpec.ts';
-import { thermalConductanceSystem, thermalInputVector } from './thermalLti.ts';
-
 export {
   discretizeThermal,
   stepThermalDiscrete,
