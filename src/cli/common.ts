@@ -87,9 +87,9 @@ export function parseSetArg(arg: string): [string, unknown] {
   }
 }
 
-/** Commander option collector for repeated `--set`. */
-export function collect(value: string, previous: string[]): string[] {
-  return [...previous, value];
+/** Commander option collector for repeated `--set` (no default, so help shows none). */
+export function collect(value: string, previous: string[] | undefined): string[] {
+  return [...(previous ?? []), value];
 }
 
 export const SET_OPTION_HELP = 'override a scenario field, e.g. --set pwm.fswHz=200e3 (repeatable)';

@@ -30,10 +30,10 @@ export function renderPoint(r: PointRecord): string {
       ? `buck ${fixed(r.vinV, 1)} V → ${fixed(r.voutV, 2)} V, ${fixed(r.ioutA, 2)} A`
       : `half-bridge leg, DC link ${fixed(r.vinV, 1)} V, load current ${fixed(r.iValleyA, 2)} … ${fixed(r.iPeakA, 2)} A (mean ${fixed(r.ioutA, 2)} A)`;
   out.push(`${r.scenario}: ${conv}`);
-  const status = r.status === 'ok' ? 'converged' : r.status === 'runaway' ? 'THERMAL RUNAWAY' : 'NOT CONVERGED';
-  out.push(
-    `  fsw ${si(r.fswHz, 'Hz')}, dead time ${si(r.deadTimeS, 's')}, gate drive ${fixed(r.vDriveV, 1)} V, low side ${r.lowSideMode}; ${status} after ${r.iterations} iterations${r.regulated ? '' : '; OUTPUT NOT REGULATED'}`,
-  );
+  const status = r.status === 'ok' ? `converged in ${r.iterations} iterations` : r.status === 'runaway' ? 'THERMAL RUNAWAY' : `NOT CONVERGED after ${r.iterations} iterations`;
+  out.push(`  fsw ${si(r.fswHz, 'Hz')}, dead time ${si(r.deadTimeS, 's')}, gate drive ${fixed(r.vDriveV, 1)} V, low side ${r.lowSideMode}; ${status}`);
+  if (r.status !== 'ok') out.push('  the temperatures and losses below are where the electro-thermal iteration stopped, not an equilibrium');
+  if (!r.regulated) out.push(`  OUTPUT NOT REGULATED: duty at its limit (${fixed(r.dutyCycle, 3)})`);
   out.push('');
 
   out.push('Power');

@@ -265,10 +265,6 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
   const tjH = x.tjHsC;
   const tjL = x.tjLsC;
 
-  // Driver timing at the edge currents (first pass: at the mean).
-  switchTiming(p.hs, p.gate, vg, vBus, Math.abs(iM), tjH, tHs);
-  switchTiming(p.ls, p.gate, vg, vBus, Math.abs(iM), tjL, tLs);
-
   let delta = ((vBus - x.vFarV) * x.duty * T) / x.lH;
   let gapRise = 0;
   let gapFall = 0;
@@ -342,6 +338,10 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
   } else {
     iPeak = iM + 0.5 * delta;
     iValley = iM - 0.5 * delta;
+    // Turn-off timing at the settled edge currents (the passes above used the previous ripple
+    // estimate): the high side turns off at the peak, the low side at the valley.
+    switchTiming(p.hs, p.gate, vg, vBus, Math.max(iPeak, 0), tjH, tHs);
+    switchTiming(p.ls, p.gate, vg, vBus, Math.max(-iValley, 0), tjL, tLs);
     conductRamp(p, true, iValley, iPeak, vg, tjH, vCap, rampHs);
     conductRamp(p, false, iPeak, iValley, vg, tjL, vCap, rampLs);
     const fHs = tHsOn / T;
@@ -419,8 +419,7 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
   const lsIsat = saturationCurrentA(p.ls, vg, tjL);
   out.hsSaturated = Math.max(iPeak, iValley) > hsIsat;
   out.lsSaturated = !diodeMode && -Math.min(iPeak, iValley) > lsIsat;
-  switchTiming(p.hs, p.gate, vg, vBus, Math.max(iPeak, 0), tjH, tHs);
-  switchTiming(p.ls, p.gate, vg, vBus, Math.max(-iValley, 0), tjL, tLs);
+  // tHs/tLs now hold the timings at the settled peak (high side) and valley (low side).
   out.hsCannotTurnOn = !tHs.canTurnOn;
   out.lsCannotTurnOn = !diodeMode && !tLs.canTurnOn;
   out.semiW = sumLoss(out.hs) + sumLoss(out.ls);

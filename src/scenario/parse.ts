@@ -37,7 +37,7 @@ function show(v: unknown): string {
   return s.length > 60 ? `${s.slice(0, 57)}...` : s;
 }
 
-function problemsFromZod(issues: readonly z.core.$ZodIssue[], root: unknown, prefix: ReadonlyArray<PropertyKey> = []): ScenarioProblem[] {
+export function problemsFromZod(issues: readonly z.core.$ZodIssue[], root: unknown, prefix: ReadonlyArray<PropertyKey> = []): ScenarioProblem[] {
   const out: ScenarioProblem[] = [];
   for (const iss of issues) {
     const path = [...prefix, ...iss.path];

@@ -9,7 +9,7 @@
  * This file (with engine.ts) is the only place that imports odex.
  */
 import { Outcome, Solver } from 'odex';
-import { type AvgInputs, type AvgOutputs, averagedDerivatives, newAvgOutputs } from '../model/averaged.ts';
+import { type AvgInputs, type AvgOutputs, averagedDerivatives, defaultAvgInputs, newAvgOutputs } from '../model/averaged.ts';
 import { type LegResult, newLegResult } from '../model/leg.ts';
 import type { Plant } from '../model/plant.ts';
 import { zohDiscretize } from '../model/thermal/matrixExponential.ts';
@@ -77,33 +77,46 @@ export class OdexStepper {
   }
 }
 
+/** Relative tolerance within which two interval lengths share one discretization (float time grid jitter). */
+const DT_MATCH_REL = 1e-9;
+
 /**
  * Local linear model with exact ZOH discretization. Valid near (x0, d0) for the inputs and
- * temperatures it was built with; `stillValid` says when to rebuild.
+ * temperatures it was built with; `stillValid` says when to rebuild. The continuous model
+ * (A, b, w) is kept, and discretized lazily per interval length: the full sample period and
+ * the last partial interval (an event between samples) are cached side by side, so an event
+ * costs one small matrix exponential, not a new linearization.
  */
 export class ZohStepper {
   private readonly leg = newLegResult();
-  private readonly outs = newAvgOutputs();
   private readonly f0 = new Float64Array(2);
   private readonly fp = new Float64Array(2);
   private readonly x0 = new Float64Array(2);
+  private readonly xp = new Float64Array(2);
   private d0 = NaN;
-  private dtS = NaN;
-  private u0: AvgInputs | undefined;
+  private valid = false;
+  private readonly uu: AvgInputs;
   private readonly uKey = new Float64Array(9);
-  /** x⁺ = ad·x + gb·d + gw */
-  private readonly ad = new Float64Array(4);
-  private readonly gb = new Float64Array(2);
-  private readonly gw = new Float64Array(2);
+  /** Continuous local model f ≈ a·x + b·d + w. */
+  private readonly a = new Float64Array(4);
+  private readonly bw = new Float64Array(4);
+  /** Two cached discretizations x⁺ = ad·x + gb·d + gw, for interval lengths slotDt[0], slotDt[1]. */
+  private readonly slotDt = new Float64Array([NaN, NaN]);
+  private readonly slotAd = [new Float64Array(4), new Float64Array(4)];
+  private readonly slotGb = [new Float64Array(2), new Float64Array(2)];
+  private readonly slotGw = [new Float64Array(2), new Float64Array(2)];
   private readonly scale = new Float64Array(2);
   linearizations = 0;
+  discretizations = 0;
   /** Outputs and leg at the linearization point (powers used between evaluations). */
   readonly pointOuts: AvgOutputs = newAvgOutputs();
   readonly pointLeg: LegResult = newLegResult();
   /** The leg at the point is strongly nonlinear (saturation, DCM, an edge current near zero). */
   nonlinear = false;
 
-  constructor(private readonly plant: Plant) {}
+  constructor(private readonly plant: Plant) {
+    this.uu = defaultAvgInputs(plant);
+  }
 
   private key(u: AvgInputs): void {
     const k = this.uKey;
@@ -111,8 +124,9 @@ export class ZohStepper {
     k[5] = u.loadIA; k[6] = u.backEmfV; k[7] = u.tjHsC; k[8] = u.tjLsC;
   }
 
-  stillValid(x: Float64Array, u: AvgInputs, dtS: number): boolean {
-    if (this.u0 === undefined || dtS !== this.dtS) return false;
+  /** The cached model still describes the plant at (x, u): same inputs, temperatures within 0.25 K, state and duty near the point. */
+  stillValid(x: Float64Array, u: AvgInputs): boolean {
+    if (!this.valid) return false;
     const k = this.uKey;
     if (u.fswHz !== k[0] || u.deadTimeS !== k[1] || u.vDriveV !== k[2] || u.vSourceV !== k[3] || u.backEmfV !== k[6]) return false;
     if (!(u.loadROhm === k[4] || (Number.isNaN(u.loadROhm) && Number.isNaN(k[4]))) || u.loadIA !== k[5]) return false;
@@ -121,18 +135,19 @@ export class ZohStepper {
     return Math.abs(x[0] - this.x0[0]) <= this.scale[0] && Math.abs(x[1] - this.x0[1]) <= this.scale[1];
   }
 
-  linearize(x: Float64Array, u: AvgInputs, dtS: number): void {
+  /** Build the local model at (x, u): three extra leg evaluations (two states, duty) by forward differences. */
+  linearize(x: Float64Array, u: AvgInputs): void {
     this.linearizations++;
     const p = this.plant;
-    const uu = { ...u };
+    const uu = Object.assign(this.uu, u);
     averagedDerivatives(p, x, uu, this.f0, this.pointLeg, this.pointOuts);
     const lg = this.pointLeg;
     this.nonlinear = lg.dcm || lg.hsSaturated || lg.lsSaturated || lg.shootThrough ||
       Math.min(Math.abs(lg.iPeakA), Math.abs(lg.iValleyA)) < 0.15 * Math.max(lg.ripplePpA, 1e-3);
-    const a = new Float64Array(4);
+    const a = this.a;
     const h0 = 1e-4 * Math.max(1, Math.abs(x[0]));
     const h1 = 1e-4 * Math.max(1, Math.abs(x[1]));
-    const xp = new Float64Array(x);
+    const xp = this.xp;
     for (let j = 0; j < 2; j++) {
       const h = j === 0 ? h0 : h1;
       xp[0] = x[0]; xp[1] = x[1];
@@ -144,29 +159,43 @@ export class ZohStepper {
     const hd = 1e-6;
     uu.duty = u.duty + hd;
     averagedDerivatives(p, x, uu, this.fp, this.leg);
+    uu.duty = u.duty;
     const b0 = (this.fp[0] - this.f0[0]) / hd;
     const b1 = (this.fp[1] - this.f0[1]) / hd;
     // Affine term w so that f ≈ A·x + b·d + w reproduces f0 at (x, d).
-    const w0 = this.f0[0] - a[0] * x[0] - a[1] * x[1] - b0 * u.duty;
-    const w1 = this.f0[1] - a[2] * x[0] - a[3] * x[1] - b1 * u.duty;
-    const z = zohDiscretize(a, Float64Array.of(b0, w0, b1, w1), 2, 2, dtS);
-    this.ad.set(z.ad);
-    this.gb[0] = z.bd[0]; this.gw[0] = z.bd[1];
-    this.gb[1] = z.bd[2]; this.gw[1] = z.bd[3];
+    const bw = this.bw;
+    bw[0] = b0; bw[1] = this.f0[0] - a[0] * x[0] - a[1] * x[1] - b0 * u.duty;
+    bw[2] = b1; bw[3] = this.f0[1] - a[2] * x[0] - a[3] * x[1] - b1 * u.duty;
+    this.slotDt[0] = this.slotDt[1] = NaN;
     this.x0.set(x);
     this.d0 = u.duty;
-    this.dtS = dtS;
-    this.u0 = uu;
     this.key(u);
+    this.valid = true;
     this.scale[0] = Math.max(0.05, 0.02 * Math.abs(x[0]), 0.1 * lg.ripplePpA);
     this.scale[1] = Math.max(0.01, 0.005 * Math.abs(x[1]));
   }
 
-  /** One held-duty step of the cached discretization (dtS as linearized). */
-  step(x: Float64Array, duty: number): void {
-    const ad = this.ad;
-    const x0 = ad[0] * x[0] + ad[1] * x[1] + this.gb[0] * duty + this.gw[0];
-    const x1 = ad[2] * x[0] + ad[3] * x[1] + this.gb[1] * duty + this.gw[1];
+  private slotFor(dtS: number): number {
+    for (let s = 0; s < 2; s++) if (Math.abs(dtS - this.slotDt[s]) <= DT_MATCH_REL * dtS) return s;
+    // Keep slot 0 for the first length discretized after a linearization (normally the sample period).
+    const s = Number.isNaN(this.slotDt[0]) ? 0 : 1;
+    this.discretizations++;
+    const z = zohDiscretize(this.a, this.bw, 2, 2, dtS);
+    this.slotAd[s].set(z.ad);
+    this.slotGb[s][0] = z.bd[0]; this.slotGw[s][0] = z.bd[1];
+    this.slotGb[s][1] = z.bd[2]; this.slotGw[s][1] = z.bd[3];
+    this.slotDt[s] = dtS;
+    return s;
+  }
+
+  /** One held-duty step of length dtS with the current local model (call `linearize` first). */
+  step(x: Float64Array, duty: number, dtS: number): void {
+    const s = this.slotFor(dtS);
+    const ad = this.slotAd[s];
+    const gb = this.slotGb[s];
+    const gw = this.slotGw[s];
+    const x0 = ad[0] * x[0] + ad[1] * x[1] + gb[0] * duty + gw[0];
+    const x1 = ad[2] * x[0] + ad[3] * x[1] + gb[1] * duty + gw[1];
     x[0] = x0;
     x[1] = x1;
   }

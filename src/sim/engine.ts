@@ -6,13 +6,17 @@
  *     profile breakpoint, tEnd).
  *  3. Integrate the averaged electrical states to tStop with the held duty (odex, or the exact
  *     ZOH local-linear step), accumulating energies.
- *  4. Check for divergence; publish records. Settled stretches (no error, no motion, no ramp)
- *     jump straight to the next non-sample event with the held equilibrium.
+ *  4. Check for divergence; publish records. Settled stretches (error and motion negligible for
+ *     several samples, no ramp on a plant input) are held: the electrical state stays at its
+ *     equilibrium, samples are skipped and the engine jumps from event to event with losses
+ *     linear in the junction temperatures, until an input changes or a junction has moved
+ *     HOLD_BAND_K from where the hold began.
  * Outcomes are a status value, never an exception: ok | diverged | interrupted | limited.
  */
 import { type AvgInputs, type AvgOutputs, averagedDerivatives, defaultAvgInputs, newAvgOutputs } from '../model/averaged.ts';
 import { type LegResult, newLegResult } from '../model/leg.ts';
 import { electricalPoint } from '../model/electrical.ts';
+import type { Plant } from '../model/plant.ts';
 import {
   type ThermalDiscrete,
   discretizeThermal,
@@ -24,6 +28,7 @@ import { DelayLine, type PiConfig, createPiState, piCoefficients, piReset, piSte
 import { ENERGY, OdexStepper, ZohStepper, addEnergies } from './electricalStep.ts';
 import { type SimSystem, samplePeriodS } from './system.ts';
 import { LiveProfile, type Profile, rampActive } from './profiles.ts';
+import { type RunExtremes, RunWatch } from './watch.ts';
 
 export type SimStatus = 'ok' | 'diverged' | 'interrupted' | 'limited';
 
@@ -72,7 +77,9 @@ export interface SupervisorTask {
 export interface SimRecord {
   tS: number;
   demandW: number;
+  /** Instantaneous ṁ·cp·(T_coolant − T_inlet) at tS. */
   heatToCoolantW: number;
+  /** Powers: means over the record interval ending at tS. */
   pinW: number;
   poutW: number;
   totalLossW: number;
@@ -85,6 +92,9 @@ export interface SimRecord {
   /** Buck output voltage or half-bridge load current (mean over the interval). */
   yMeasured: number;
   reference: number;
+  /** Largest |reference − measured| at the control samples of the interval (0 when held). */
+  yDevMax: number;
+  /** Mean applied duty over the interval. */
   duty: number;
   fswHz: number;
   deadTimeS: number;
@@ -95,6 +105,7 @@ export interface SimRecord {
   coolantC: number;
   inletC: number;
   loadROhm: number;
+  loadIA: number;
   [extra: string]: number | string;
 }
 
@@ -111,20 +122,98 @@ export interface SimOptions {
   keepRecords?: boolean;
 }
 
+export type CauseCode = 'notANumber' | 'current' | 'voltage' | 'thermalRunaway' | 'integration' | 'interrupted' | 'limited';
+
 export interface SimResult {
   status: SimStatus;
   tEndS: number;
   cause: string | undefined;
+  causeCode: CauseCode | undefined;
   records: SimRecord[];
   warnings: string[];
-  energiesJ: { pin: number; pout: number; hs: number; ls: number; passive: number; gateDriver: number; store: number };
-  stats: { samples: number; skippedS: number; linearizations: number; odexIntervals: number; iterations: number };
+  /** Integrated energies (J); `coolant` is the heat carried off by the coolant stream. */
+  energiesJ: { pin: number; pout: number; hs: number; ls: number; passive: number; gateDriver: number; store: number; coolant: number };
+  stats: {
+    samples: number;
+    /** Simulated time spent in held (settled) stretches. */
+    skippedS: number;
+    holds: number;
+    linearizations: number;
+    discretizations: number;
+    odexIntervals: number;
+    iterations: number;
+    thermalSteps: number;
+    heatToCoolantJ: number;
+    /** Hottest junction over the run (either device) and when. */
+    peakTjC: number;
+    peakTjAtS: number;
+    /** Time with a junction above its tjMax − tjMarginK, and above its tjMax. */
+    timeAboveTjMarginS: number;
+    timeAboveTjMaxS: number;
+    /** Largest |reference − measured| at a control sample. */
+    maxYDev: number;
+    /** Largest deviation inside the settling windows that follow knob moves. */
+    maxDevDuringMoves: number;
+    /** Per knob move: time until the regulated output stayed within REGULATION_BAND of its reference. */
+    moveSettleS: number[];
+  };
+  /** Per-device extremes and first crossings for cautions. */
+  extremes: RunExtremes;
   /** Final states for checks: electrical [x0, x1] and thermal node temperatures. */
   finalX: number[];
   finalTempsC: number[];
 }
 
 const DIVERGE_CURRENT_A = 1e4;
+/** Consecutive still samples before a stretch counts as settled. */
+const SETTLE_SAMPLES = 8;
+/** A held stretch ends when a junction has moved this far from where its powers were evaluated (the ZOH model's own temperature validity). */
+const HOLD_BAND_K = 0.25;
+/** Finite-difference step for the held powers' temperature sensitivities. */
+const HOLD_DTJ_K = 0.05;
+/** Settling band after a knob move, as a fraction of the reference magnitude (our convention). */
+export const REGULATION_BAND = 0.005;
+/** Held power vector: the ENERGY entries, then the two capacitor mean squares. */
+const HP_CAP_OUT = ENERGY.n;
+const HP_CAP_IN = ENERGY.n + 1;
+const HP_N = ENERGY.n + 2;
+
+// Imported bindings are read through accessors under the TypeScript loader; hot loops use local copies.
+const E_PIN = ENERGY.pin;
+const E_POUT = ENERGY.pout;
+const E_HS = ENERGY.hs;
+const E_LS = ENERGY.ls;
+const E_PASSIVE = ENERGY.passive;
+const E_GATE = ENERGY.gateDriver;
+const E_STORE = ENERGY.store;
+const E_N = ENERGY.n;
+
+/** Equal, or both NaN (an unused load field). */
+function same(a: number, b: number): boolean {
+  return a === b || (Number.isNaN(a) && Number.isNaN(b));
+}
+
+function powerVector(o: AvgOutputs, leg: LegResult, out: Float64Array): void {
+  out[E_PIN] = o.pinW;
+  out[E_POUT] = o.poutW;
+  out[E_HS] = leg.hs.totalW;
+  out[E_LS] = leg.ls.totalW;
+  out[E_PASSIVE] = o.passiveW;
+  out[E_GATE] = o.gateDriverW;
+  out[E_STORE] = o.pStoreW;
+  out[HP_CAP_OUT] = o.capOutRmsA * o.capOutRmsA;
+  out[HP_CAP_IN] = o.capInRmsA * o.capInRmsA;
+}
+
+/** The plant with the converter's source and load replaced by their values at t = 0 (for the starting equilibrium). */
+function plantAtStart(plant: Plant, u: AvgInputs): Plant {
+  const c = plant.conv;
+  if (c.kind === 'buck') {
+    const load = Number.isNaN(u.loadROhm) ? { iA: u.loadIA } : { rOhm: u.loadROhm };
+    return { ...plant, conv: { ...c, vinV: u.vSourceV, load } };
+  }
+  return { ...plant, conv: { ...c, vdcV: u.vSourceV } };
+}
 
 /** Inputs a live session may change; each change becomes a step breakpoint at the present time. */
 export type LiveInput =
@@ -172,11 +261,11 @@ export class Simulation {
   private readonly thU: Float64Array;
   private readonly thCache = new Map<string, ThermalDiscrete>();
   private readonly thOut: Float64Array;
-  private readonly accStep = new Float64Array(ENERGY.n);
-  private readonly accTh = new Float64Array(ENERGY.n);
-  private readonly accRec = new Float64Array(ENERGY.n);
-  private readonly accSup = new Float64Array(ENERGY.n);
-  private readonly accTot = new Float64Array(ENERGY.n);
+  private readonly accStep = new Float64Array(E_N);
+  private readonly accTh = new Float64Array(E_N);
+  private readonly accRec = new Float64Array(E_N);
+  private readonly accSup = new Float64Array(E_N);
+  private readonly accTot = new Float64Array(E_N);
   private recY = 0;
   private recDuty = 0;
   private recTime = 0;
@@ -190,6 +279,38 @@ export class Simulation {
   private tNextSup: number;
   status: SimStatus = 'ok';
   cause: string | undefined;
+  causeCode: CauseCode | undefined;
+  private readonly watch: RunWatch;
+  private coolantJ = 0;
+  private recCapOutMs = 0;
+  private recCapInMs = 0;
+  private recYDev = 0;
+  private lastCmd = NaN;
+  private holds = 0;
+  private thermalSteps = 0;
+  private thLast: ThermalDiscrete | undefined;
+  /** Profiles whose ramps move the electrical plant (a ramp there forbids holding). */
+  private readonly movingPlant: Profile[];
+  // Held (settled) stretch: powers at the hold point and their junction-temperature sensitivities.
+  private held = false;
+  private readonly hp0 = new Float64Array(HP_N);
+  private readonly hpH = new Float64Array(HP_N);
+  private readonly hpL = new Float64Array(HP_N);
+  private readonly hpNow = new Float64Array(HP_N);
+  private readonly hLeg = newLegResult();
+  private readonly hOuts = newAvgOutputs();
+  private readonly uH: AvgInputs;
+  private heldTjH = 0;
+  private heldTjL = 0;
+  private heldY = 0;
+  private heldRef = 0;
+  private heldPinned = false;
+  private readonly heldU = new Float64Array(7);
+  // Settling after knob moves.
+  private moveAtS = NaN;
+  private moveLastOutS = NaN;
+  private readonly moveSettleS: number[] = [];
+  private maxDevDuringMoves = 0;
   private samples = 0;
   private skippedS = 0;
   private odexIntervals = 0;
@@ -225,6 +346,7 @@ export class Simulation {
     };
     const prof = this.profiles;
     this.breakProfiles = Object.values(prof);
+    this.movingPlant = [prof.loadROhm, prof.loadIA, prof.vinV, prof.reference, prof.fswHz, prof.deadTimeS, prof.vDriveV, prof.controlKp, prof.controlKi];
     this.knobs = { fswHz: prof.fswHz.valueAt(0), deadTimeS: prof.deadTimeS.valueAt(0), vDriveV: prof.vDriveV.valueAt(0) };
     this.u = defaultAvgInputs(plant);
     this.temps = new Float64Array(net.nNodes).fill(prof.inletC.valueAt(0));
@@ -233,8 +355,8 @@ export class Simulation {
     this.u.tjHsC = this.temps[this.jH];
     this.u.tjLsC = this.temps[this.jL];
     this.readInputs(0);
-    // Electrical start: the regulated steady state at the initial knobs and temperatures.
-    const ep0 = electricalPoint(plant, this.knobs, this.u.tjHsC, this.u.tjLsC);
+    // Electrical start: the regulated steady state at the initial knobs, inputs and temperatures.
+    const ep0 = electricalPoint(plantAtStart(plant, this.u), this.knobs, this.u.tjHsC, this.u.tjLsC);
     this.x[0] = ep0.iMeanA;
     this.x[1] = plant.conv.kind === 'buck' ? ep0.vOutV : ep0.vBusV;
     this.u.duty = ep0.duty;
@@ -245,6 +367,8 @@ export class Simulation {
     this.delay = new DelayLine(sys.delaySamples, ep0.duty);
     this.odex = new OdexStepper(plant);
     this.zoh = new ZohStepper(plant);
+    this.uH = { ...this.u };
+    this.watch = new RunWatch(plant, sc.limits.tjMarginK, sc.limits.vthSpreadV);
     this.refreshOuts();
     this.thIdx = thermalInputIndex(net);
     this.thU = new Float64Array(this.thIdx.nInputs);
@@ -262,6 +386,7 @@ export class Simulation {
     this.profiles[name].setFrom(this.t, value);
     this.cachedBreakAt = NaN;
     this.settled = 0;
+    this.held = false;
   }
 
   private supOn(t: number): boolean {
@@ -270,6 +395,7 @@ export class Simulation {
 
   private refreshOuts(): void {
     averagedDerivatives(this.sys.plant, this.x, this.u, this.dxScratch, this.curLeg, this.curOuts);
+    this.watch.leg(this.curLeg, this.u.vDriveV, this.u.tjHsC, this.u.tjLsC, this.t);
   }
 
   private readInputs(tt: number): void {
@@ -296,7 +422,7 @@ export class Simulation {
   }
 
   private anyRamp(tt: number): boolean {
-    for (const p of this.breakProfiles) if (rampActive(p, tt)) return true;
+    for (const p of this.movingPlant) if (rampActive(p, tt)) return true;
     return false;
   }
 
@@ -305,28 +431,41 @@ export class Simulation {
     if (dt <= 0) return;
     const net = this.sys.net;
     const prof = this.profiles;
-    const flow = prof.flowKgPerS.valueAt(this.t);
+    this.thermalSteps++;
+    // Inputs held over the step take their mid-interval values: a step breakpoint landing at the
+    // end of this interval belongs to the next one.
+    const tMid = this.t - 0.5 * dt;
+    const flow = prof.flowKgPerS.valueAt(tMid);
     // Floating-point drift in the accumulated step would defeat the cache: snap to the nominal step.
     if (Math.abs(dt - this.thDt) < 1e-9 * this.thDt) dt = this.thDt;
-    const key = `${flow}|${dt}`;
-    let disc = this.thCache.get(key);
-    if (!disc) {
-      if (this.thCache.size > 64) this.thCache.clear();
-      disc = discretizeThermal(net, flow, dt);
-      this.thCache.set(key, disc);
+    let disc = this.thLast;
+    if (!disc || disc.flowKgPerS !== flow || disc.dtS !== dt) {
+      const key = `${flow}|${dt}`;
+      disc = this.thCache.get(key);
+      if (!disc) {
+        if (this.thCache.size > 64) this.thCache.clear();
+        disc = discretizeThermal(net, flow, dt);
+        this.thCache.set(key, disc);
+      }
+      this.thLast = disc;
     }
+    const inlet = prof.inletC.valueAt(tMid);
+    const tc0 = this.temps[net.layout.coolant];
     const thU = this.thU;
     const acc = this.accTh;
-    thU[this.thIdx.deviceLossW] = acc[ENERGY.hs] / dt;
-    thU[this.thIdx.deviceLossW + 1] = acc[ENERGY.ls] / dt;
-    thU[this.thIdx.sinkExtraW] = (this.sys.plant.passiveToPlateFraction * acc[ENERGY.passive]) / dt;
-    thU[this.thIdx.inletC] = prof.inletC.valueAt(this.t);
+    thU[this.thIdx.deviceLossW] = acc[E_HS] / dt;
+    thU[this.thIdx.deviceLossW + 1] = acc[E_LS] / dt;
+    thU[this.thIdx.sinkExtraW] = (this.sys.plant.passiveToPlateFraction * acc[E_PASSIVE]) / dt;
+    thU[this.thIdx.inletC] = inlet;
     thU[this.thIdx.ambientC] = this.sys.scenario.thermal.ambientC;
     stepThermalDiscrete(disc, this.temps, thU, this.thOut);
     this.temps.set(this.thOut);
+    // Coolant heat over the step by the trapezoid rule on the coolant node.
+    this.coolantJ += flow * net.coolantCpJPerKgK * (0.5 * (tc0 + this.temps[net.layout.coolant]) - inlet) * dt;
     acc.fill(0);
     this.u.tjHsC = this.temps[this.jH];
     this.u.tjLsC = this.temps[this.jL];
+    this.watch.thermal(this.u.tjHsC, this.u.tjLsC, dt, this.t);
   }
 
   private heatNow(): number {
@@ -336,15 +475,16 @@ export class Simulation {
   private emitRecord(): void {
     const dt = this.recTime > 0 ? this.recTime : 1;
     const a = this.accRec;
-    const pin = a[ENERGY.pin] / dt;
-    const pout = a[ENERGY.pout] / dt;
-    const hs = a[ENERGY.hs] / dt;
-    const ls = a[ENERGY.ls] / dt;
-    const passive = a[ENERGY.passive] / dt;
-    const gd = a[ENERGY.gateDriver] / dt;
+    const pin = a[E_PIN] / dt;
+    const pout = a[E_POUT] / dt;
+    const hs = a[E_HS] / dt;
+    const ls = a[E_LS] / dt;
+    const passive = a[E_PASSIVE] / dt;
+    const gd = a[E_GATE] / dt;
     const prof = this.profiles;
     const net = this.sys.net;
     const t = this.t;
+    this.watch.capacitorRms(Math.sqrt(this.recCapOutMs / dt), Math.sqrt(this.recCapInMs / dt));
     const r: SimRecord = {
       tS: t,
       demandW: prof.heatDemandW.valueAt(t),
@@ -360,6 +500,7 @@ export class Simulation {
       efficiency: pin > 0 ? pout / pin : 0,
       yMeasured: this.recY / dt,
       reference: prof.reference.valueAt(t),
+      yDevMax: this.recYDev,
       duty: this.recDuty / dt,
       fswHz: this.knobs.fswHz,
       deadTimeS: this.knobs.deadTimeS,
@@ -370,26 +511,29 @@ export class Simulation {
       coolantC: this.temps[net.layout.coolant],
       inletC: prof.inletC.valueAt(t),
       loadROhm: this.u.loadROhm,
+      loadIA: this.u.loadIA,
     };
     if (this.sup?.recordFields) Object.assign(r, this.sup.recordFields());
     if (this.keep) this.records.push(r);
     this.opts.onRecord?.(r);
     a.fill(0);
-    this.recY = this.recDuty = this.recTime = 0;
+    this.recY = this.recDuty = this.recTime = this.recCapOutMs = this.recCapInMs = this.recYDev = 0;
   }
 
-  private accumulate(dt: number): void {
+  /** Book an interval's energies (accStep), mean output and capacitor mean squares into every accumulator. */
+  private accumulate(dt: number, yMean: number, capOutMs: number, capInMs: number): void {
     const s = this.accStep;
-    for (let k = 0; k < ENERGY.n; k++) {
+    for (let k = 0; k < E_N; k++) {
       this.accTh[k] += s[k];
       this.accRec[k] += s[k];
       this.accSup[k] += s[k];
       this.accTot[k] += s[k];
     }
-    const o = this.curOuts;
-    this.capOutMs += o.capOutRmsA * o.capOutRmsA * dt;
-    this.capInMs += o.capInRmsA * o.capInRmsA * dt;
-    this.recY += o.yMeasured * dt;
+    this.capOutMs += capOutMs * dt;
+    this.capInMs += capInMs * dt;
+    this.recCapOutMs += capOutMs * dt;
+    this.recCapInMs += capInMs * dt;
+    this.recY += yMean * dt;
     this.recDuty += this.u.duty * dt;
     this.recTime += dt;
     this.thTime += dt;
@@ -399,6 +543,7 @@ export class Simulation {
   private advance(dt: number): boolean {
     const x = this.x;
     const u = this.u;
+    const y0 = measured(this.sys, x, u);
     this.accStep.fill(0);
     if (this.useOdex) {
       this.odexIntervals++;
@@ -406,34 +551,105 @@ export class Simulation {
       this.refreshOuts();
     } else {
       const zoh = this.zoh;
-      if (!zoh.stillValid(x, u, dt)) {
-        zoh.linearize(x, u, dt);
+      if (!zoh.stillValid(x, u)) {
+        zoh.linearize(x, u);
         Object.assign(this.curOuts, zoh.pointOuts);
         Object.assign(this.curLeg.hs, zoh.pointLeg.hs);
         Object.assign(this.curLeg.ls, zoh.pointLeg.ls);
         this.curLeg.semiW = zoh.pointLeg.semiW;
+        this.watch.leg(zoh.pointLeg, u.vDriveV, u.tjHsC, u.tjLsC, this.t);
         if (this.mode === 'auto' && zoh.nonlinear) {
           this.useOdex = true;
           return this.advance(dt);
         }
       }
-      zoh.step(x, u.duty);
+      zoh.step(x, u.duty, dt);
       addEnergies(this.accStep, this.curOuts, this.curLeg, dt);
     }
-    this.accumulate(dt);
-    return Number.isFinite(x[0]) && Number.isFinite(x[1]);
+    if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
+    // Trapezoid on the regulated quantity: the records follow the state, not the last leg evaluation.
+    const o = this.curOuts;
+    this.accumulate(dt, 0.5 * (y0 + measured(this.sys, x, u)), o.capOutRmsA * o.capOutRmsA, o.capInRmsA * o.capInRmsA);
+    return true;
+  }
+
+  /** Start a held stretch: powers at the present point and their sensitivities to each junction temperature. */
+  private enterHold(): void {
+    const plant = this.sys.plant;
+    const x = this.x;
+    const u = this.u;
+    this.held = true;
+    this.holds++;
+    this.closeMoveWindow();
+    this.refreshOuts();
+    powerVector(this.curOuts, this.curLeg, this.hp0);
+    const uH = Object.assign(this.uH, u);
+    uH.tjHsC = u.tjHsC + HOLD_DTJ_K;
+    averagedDerivatives(plant, x, uH, this.dxScratch, this.hLeg, this.hOuts);
+    powerVector(this.hOuts, this.hLeg, this.hpH);
+    uH.tjHsC = u.tjHsC;
+    uH.tjLsC = u.tjLsC + HOLD_DTJ_K;
+    averagedDerivatives(plant, x, uH, this.dxScratch, this.hLeg, this.hOuts);
+    powerVector(this.hOuts, this.hLeg, this.hpL);
+    for (let k = 0; k < HP_N; k++) {
+      this.hpH[k] = (this.hpH[k] - this.hp0[k]) / HOLD_DTJ_K;
+      this.hpL[k] = (this.hpL[k] - this.hp0[k]) / HOLD_DTJ_K;
+    }
+    this.heldTjH = u.tjHsC;
+    this.heldTjL = u.tjLsC;
+    this.heldY = measured(this.sys, x, u);
+    this.heldRef = this.profiles.reference.valueAt(this.t);
+    this.heldPinned = this.pi.saturation !== 0;
+    const h = this.heldU;
+    h[0] = u.vSourceV; h[1] = u.loadROhm; h[2] = u.loadIA; h[3] = u.fswHz; h[4] = u.deadTimeS; h[5] = u.vDriveV; h[6] = u.backEmfV;
+  }
+
+  /** The hold point still describes the plant: same inputs and knobs, junctions within HOLD_BAND_K. */
+  private holdStillValid(): boolean {
+    const u = this.u;
+    const h = this.heldU;
+    if (Math.abs(u.tjHsC - this.heldTjH) > HOLD_BAND_K || Math.abs(u.tjLsC - this.heldTjL) > HOLD_BAND_K) return false;
+    return same(u.vSourceV, h[0]) && same(u.loadROhm, h[1]) && same(u.loadIA, h[2]) && u.fswHz === h[3] &&
+      u.deadTimeS === h[4] && u.vDriveV === h[5] && u.backEmfV === h[6] && this.profiles.reference.valueAt(this.t) === this.heldRef;
+  }
+
+  /** A held interval: state and duty unchanged, powers linear in the junction temperatures. */
+  private advanceHeld(dt: number): void {
+    const dh = this.u.tjHsC - this.heldTjH;
+    const dl = this.u.tjLsC - this.heldTjL;
+    const p = this.hpNow;
+    for (let k = 0; k < HP_N; k++) p[k] = this.hp0[k] + this.hpH[k] * dh + this.hpL[k] * dl;
+    for (let k = 0; k < E_N; k++) this.accStep[k] = p[k] * dt;
+    this.accumulate(dt, this.heldY, Math.max(p[HP_CAP_OUT], 0), Math.max(p[HP_CAP_IN], 0));
+    if (this.heldPinned) this.watch.pinnedHeld(dt);
+    this.skippedS += dt;
+  }
+
+  /** Close the settling window of the last knob move (at a hold, the next move or the end). */
+  private closeMoveWindow(): void {
+    if (Number.isNaN(this.moveAtS)) return;
+    this.moveSettleS.push(Number.isNaN(this.moveLastOutS) ? 0 : this.moveLastOutS - this.moveAtS);
+    this.moveAtS = this.moveLastOutS = NaN;
   }
 
   private diverged(): boolean {
     const x = this.x;
     const u = this.u;
-    if (!Number.isFinite(x[0]) || !Number.isFinite(x[1])) { this.cause = 'electrical state is not a number'; return true; }
-    if (Math.abs(x[0]) > DIVERGE_CURRENT_A) { this.cause = `current ${x[0].toExponential(2)} A beyond ${DIVERGE_CURRENT_A} A`; return true; }
+    if (!Number.isFinite(x[0]) || !Number.isFinite(x[1])) { this.cause = 'electrical state is not a number'; this.causeCode = 'notANumber'; return true; }
+    if (Math.abs(x[0]) > DIVERGE_CURRENT_A) {
+      this.cause = `current ${x[0].toExponential(2)} A beyond ${DIVERGE_CURRENT_A} A`;
+      this.causeCode = 'current';
+      return true;
+    }
     const vMax = 3 * Math.max(u.vSourceV, 1);
-    if (Math.abs(x[1]) > vMax) { this.cause = `voltage ${x[1].toFixed(1)} V beyond ${vMax.toFixed(0)} V`; return true; }
+    if (Math.abs(x[1]) > vMax) { this.cause = `voltage ${x[1].toFixed(1)} V beyond ${vMax.toFixed(0)} V`; this.causeCode = 'voltage'; return true; }
     const tjMax = Math.max(u.tjHsC, u.tjLsC);
     const lim = this.sys.scenario.limits.runawayTjC;
-    if (tjMax > lim) { this.cause = `thermal runaway: junction ${tjMax.toFixed(1)} °C above ${lim} °C`; return true; }
+    if (!(tjMax <= lim)) {
+      this.cause = `thermal runaway: junction ${tjMax.toFixed(1)} °C above ${lim} °C at ${this.t.toFixed(3)} s`;
+      this.causeCode = 'thermalRunaway';
+      return true;
+    }
     return false;
   }
 
@@ -451,10 +667,10 @@ export class Simulation {
       tjHsC: this.temps[this.jH], tjLsC: this.temps[this.jL],
       heatsinkC: this.temps[net.layout.heatsink], coolantC: this.temps[net.layout.coolant], inletC: prof.inletC.valueAt(t),
       flowKgPerS: prof.flowKgPerS.valueAt(t), heatToCoolantW: this.heatNow(),
-      pinW: st > 0 ? a[ENERGY.pin] / dt : o.pinW,
-      poutW: st > 0 ? a[ENERGY.pout] / dt : o.poutW,
-      semiW: st > 0 ? (a[ENERGY.hs] + a[ENERGY.ls]) / dt : o.semiW,
-      totalLossW: st > 0 ? (a[ENERGY.hs] + a[ENERGY.ls] + a[ENERGY.passive] + a[ENERGY.gateDriver]) / dt : o.totalLossW,
+      pinW: st > 0 ? a[E_PIN] / dt : o.pinW,
+      poutW: st > 0 ? a[E_POUT] / dt : o.poutW,
+      semiW: st > 0 ? (a[E_HS] + a[E_LS]) / dt : o.semiW,
+      totalLossW: st > 0 ? (a[E_HS] + a[E_LS] + a[E_PASSIVE] + a[E_GATE]) / dt : o.totalLossW,
       capOutRmsA: st > 0 ? Math.sqrt(this.capOutMs / dt) : o.capOutRmsA,
       capInRmsA: st > 0 ? Math.sqrt(this.capInMs / dt) : o.capInRmsA,
       vSourceV: this.u.vSourceV, loadROhm: this.u.loadROhm, loadIA: this.u.loadIA,
@@ -479,6 +695,7 @@ export class Simulation {
     this.iterations++;
     // 1. discrete updates due at t, in a fixed order
     const supOn = this.supOn(t);
+    const k0 = this.knobs.fswHz, k1 = this.knobs.deadTimeS, k2 = this.knobs.vDriveV;
     if (!supOn) {
       this.knobs.fswHz = prof.fswHz.valueAt(t);
       this.knobs.deadTimeS = prof.deadTimeS.valueAt(t);
@@ -489,7 +706,12 @@ export class Simulation {
     }
     this.supWasOn = supOn;
     this.readInputs(t);
-    if (t >= this.tNextTh - 1e-12) { this.thermalStep(this.thTime); this.thTime = 0; this.tNextTh = t + this.thDt; this.refreshOuts(); }
+    if (t >= this.tNextTh - 1e-12) {
+      this.thermalStep(this.thTime);
+      this.thTime = 0;
+      this.tNextTh = t + this.thDt;
+      if (!this.held) this.refreshOuts();
+    }
     if (t >= this.tNextRec - 1e-12) { this.emitRecord(); this.tNextRec += this.recDt; }
     if (supOn && t >= this.tNextSup - 1e-12) this.supervisorTick();
     if (!prof.controlKp.constant || !prof.controlKi.constant) {
@@ -501,6 +723,18 @@ export class Simulation {
         this.coeffs = piCoefficients(this.piCfg, this.ts);
       }
     }
+    if (this.knobs.fswHz !== k0 || this.knobs.deadTimeS !== k1 || this.knobs.vDriveV !== k2) {
+      // A knob move opens a settling window (regulation metric).
+      this.closeMoveWindow();
+      this.moveAtS = t;
+    }
+    if (this.held && !this.holdStillValid()) {
+      // Something moved the plant: resume sampling now; the loop re-settles before the next hold.
+      this.held = false;
+      this.settled = 0;
+      this.tNextSample = t;
+      this.refreshOuts();
+    }
     const newTs = samplePeriodS(this.sys, this.knobs.fswHz);
     if (newTs !== this.ts) {
       this.ts = newTs;
@@ -508,7 +742,7 @@ export class Simulation {
       this.coeffs = piCoefficients(this.piCfg, newTs);
       if (this.tNextSample > t + newTs) this.tNextSample = t + newTs;
     }
-    if (t >= this.tNextSample - 1e-12) {
+    if (!this.held && t >= this.tNextSample - 1e-12) {
       this.samples++;
       let y = measured(this.sys, x, u);
       const fHz = this.sys.sensorFilterHz;
@@ -522,36 +756,44 @@ export class Simulation {
       const cmd = piStep(this.piCfg, this.coeffs, this.pi, e);
       u.duty = this.delay.push(cmd);
       this.tNextSample = t + this.ts;
-      // Settled: error and its motion negligible for several samples in a row.
-      const still = Math.abs(e) < 1e-6 * (1 + Math.abs(ref)) && Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y));
+      const dev = Math.abs(e);
+      this.watch.sample(e, this.pi.saturation !== 0, this.ts, t);
+      if (dev > this.recYDev) this.recYDev = dev;
+      if (!Number.isNaN(this.moveAtS)) {
+        if (dev > this.maxDevDuringMoves) this.maxDevDuringMoves = dev;
+        if (dev > REGULATION_BAND * Math.abs(ref)) this.moveLastOutS = t;
+      }
+      // Settled: no motion, and either no error or a controller output that no longer moves
+      // (duty pinned at a limit, or an open loop), for several samples in a row.
+      const still = Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y)) && (dev < 1e-6 * (1 + Math.abs(ref)) || cmd === this.lastCmd);
       this.settled = still ? this.settled + 1 : 0;
       this.lastE = e;
+      this.lastCmd = cmd;
       if (this.mode === 'auto' && this.useOdex && this.samples % 64 === 0) {
-        this.zoh.linearize(x, u, this.ts);
+        this.zoh.linearize(x, u);
         this.useOdex = this.zoh.nonlinear;
       }
     }
     // 2. next event
     const tEvent = Math.min(this.tNextTh, this.tNextRec, supOn ? this.tNextSup : Infinity, this.nextBreak(t), this.tEndS);
-    const tStop = Math.min(this.tNextSample, tEvent);
-    if (this.settled >= 8 && !this.useOdex && prof.reference.constant && !this.anyRamp(t)) {
-      // 3'. settled: jump to the next non-sample event holding the equilibrium.
-      const dt = tEvent - t;
-      this.skippedS += dt;
-      this.tNextSample = tEvent;
-      this.refreshOuts();
-      this.accStep.fill(0);
-      addEnergies(this.accStep, this.curOuts, this.curLeg, dt);
-      this.accumulate(dt);
+    if (!this.held && this.settled >= SETTLE_SAMPLES && !this.useOdex && !this.anyRamp(t)) this.enterHold();
+    if (this.held) {
+      // 3'. held: jump to the next event; no samples in between.
+      this.advanceHeld(tEvent - t);
       this.t = tEvent;
-      this.settled = 4; // re-check motion after the next event before jumping again
+      this.tNextSample = tEvent;
+      if (this.diverged()) { this.status = 'diverged'; return false; }
       return true;
     }
+    const tStop = Math.min(this.tNextSample, tEvent);
     // 3. integrate
     const dt = tStop - t;
     if (dt > 0 && !this.advance(dt)) {
       this.status = 'diverged';
-      this.cause = this.cause ?? `integration failed at ${t.toFixed(6)} s`;
+      if (!this.diverged()) {
+        this.cause = `integration failed at ${t.toFixed(6)} s`;
+        this.causeCode = 'integration';
+      }
       return false;
     }
     this.t = tStop;
@@ -571,6 +813,7 @@ export class Simulation {
         if (this.opts.shouldStop?.()) {
           this.status = 'interrupted';
           this.cause = `stopped at ${this.t.toFixed(3)} s`;
+          this.causeCode = 'interrupted';
           break;
         }
       }
@@ -592,26 +835,45 @@ export class Simulation {
   finish(): SimResult {
     if (!this.finished) {
       this.finished = true;
+      // Close the last intervals so the final temperatures and the last record belong to tEndS.
+      const acc = this.accTh;
+      let finite = true;
+      for (let k = 0; k < E_N; k++) finite &&= Number.isFinite(acc[k]);
+      if (this.thTime > 0 && finite) {
+        this.thermalStep(this.thTime);
+        this.thTime = 0;
+      }
       if (this.recTime > 0) this.emitRecord();
+      this.closeMoveWindow();
       if (this.status === 'ok' && this.sup?.limitation) {
         const lim = this.sup.limitation();
-        if (lim) { this.status = 'limited'; this.cause = lim; }
+        if (lim) { this.status = 'limited'; this.cause = lim; this.causeCode = 'limited'; }
       }
       if (this.mode === 'auto' && this.odexIntervals > 0)
         this.warnings.add('strongly nonlinear stretches (saturation, DCM or current reversal) were integrated with odex');
     }
     const a = this.accTot;
+    const ex = this.watch.result();
+    const hot = ex.tjPeakC[0] >= ex.tjPeakC[1] ? 0 : 1;
     return {
       status: this.status,
       tEndS: this.t,
       cause: this.cause,
+      causeCode: this.causeCode,
       records: this.records,
       warnings: [...this.warnings],
       energiesJ: {
-        pin: a[ENERGY.pin], pout: a[ENERGY.pout], hs: a[ENERGY.hs], ls: a[ENERGY.ls],
-        passive: a[ENERGY.passive], gateDriver: a[ENERGY.gateDriver], store: a[ENERGY.store],
+        pin: a[E_PIN], pout: a[E_POUT], hs: a[E_HS], ls: a[E_LS],
+        passive: a[E_PASSIVE], gateDriver: a[E_GATE], store: a[E_STORE], coolant: this.coolantJ,
       },
-      stats: { samples: this.samples, skippedS: this.skippedS, linearizations: this.zoh.linearizations, odexIntervals: this.odexIntervals, iterations: this.iterations },
+      stats: {
+        samples: this.samples, skippedS: this.skippedS, holds: this.holds, linearizations: this.zoh.linearizations,
+        discretizations: this.zoh.discretizations, odexIntervals: this.odexIntervals, iterations: this.iterations,
+        thermalSteps: this.thermalSteps, heatToCoolantJ: this.coolantJ, peakTjC: ex.tjPeakC[hot], peakTjAtS: ex.tjPeakAtS[hot],
+        timeAboveTjMarginS: ex.timeAnyInMarginS, timeAboveTjMaxS: ex.timeAnyAboveMaxS, maxYDev: ex.maxAbsErrorY,
+        maxDevDuringMoves: this.maxDevDuringMoves, moveSettleS: [...this.moveSettleS],
+      },
+      extremes: ex,
       finalX: [this.x[0], this.x[1]],
       finalTempsC: [...this.temps],
     };
@@ -625,7 +887,7 @@ export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
 }
 
 /** The regulated quantity from the states without a leg evaluation: buck output voltage (ESR divider with the load) or half-bridge current. */
-function measured(sys: SimSystem, x: Float64Array, u: AvgInputs): number {
+export function measured(sys: SimSystem, x: Float64Array, u: AvgInputs): number {
   const c = sys.plant.conv;
   if (c.kind !== 'buck') return x[0];
   const esr = c.cout.esrOhm;

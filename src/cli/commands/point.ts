@@ -7,7 +7,7 @@ import { SET_OPTION_HELP, collect, ioOf, loadScenario } from '../common.ts';
 import { renderCautions, renderPoint } from '../pointText.ts';
 
 interface PointOptions {
-  set: string[];
+  set?: string[];
   json?: boolean;
 }
 
@@ -16,7 +16,7 @@ export function register(program: Command): void {
     .command('point')
     .description('steady-state operating point: duty, efficiency, loss breakdown, junction temperatures, heat to coolant')
     .argument('<file>', 'scenario file (YAML or JSON)')
-    .option('--set <path=value>', SET_OPTION_HELP, collect, [])
+    .option('--set <path=value>', SET_OPTION_HELP, collect)
     .option('--json', 'print the point as one JSON record')
     .addHelpText(
       'after',
@@ -24,7 +24,7 @@ export function register(program: Command): void {
     )
     .action(async (file: string, opts: PointOptions, cmd: Command) => {
       const io = ioOf(cmd);
-      const scenario = await loadScenario(file, opts.set);
+      const scenario = await loadScenario(file, opts.set ?? []);
       const record = pointRecord(operatingPoint(pointContext(scenario)), scenario);
       if (opts.json) io.out(toJsonText(record));
       else io.out(renderPoint(record) + renderCautions(record.cautions));

@@ -17,7 +17,7 @@ interface SweepOptions {
   log?: boolean;
   csv?: boolean;
   json?: boolean;
-  set: string[];
+  set?: string[];
   out?: string;
 }
 
@@ -72,7 +72,7 @@ export function register(program: Command): void {
     .option('--log', 'space the points geometrically (bounds must be > 0)')
     .addOption(new Option('--csv', 'print CSV: one row per point, nested fields flattened with dots').conflicts('json'))
     .addOption(new Option('--json', 'print JSON: {param, spacing, rows: [...]}').conflicts('csv'))
-    .option('--set <path=value>', SET_OPTION_HELP, collect, [])
+    .option('--set <path=value>', SET_OPTION_HELP, collect)
     .option('--out <file>', 'write the output to a file (atomically) instead of standard output')
     .addHelpText(
       'after',
@@ -87,7 +87,7 @@ export function register(program: Command): void {
         if (e instanceof RangeError) throw new CliError(`sweep: ${e.message}`);
         throw e;
       }
-      const scenario = await loadScenario(file, opts.set);
+      const scenario = await loadScenario(file, opts.set ?? []);
       let points;
       try {
         points = sweepPoints(scenario, opts.param, values);

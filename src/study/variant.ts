@@ -1,0 +1,145 @@
+/**
+ * From a sample plan to the scenario it stands for: the study's base scenario, the operating
+ * settings the device spread asks for, the grid and random parameter values, then each device
+ * instance's draws applied as field overrides (`devices.highSide.vth25V`, ...) and thermal
+ * paths (`thermal.devices.highSide.junctionCase.rKPerW`). Pure; every variant is re-validated.
+ */
+import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
+import { type Scenario, withOverrides } from '../scenario/parse.ts';
+import { centre } from './distributions.ts';
+import type { DeviceDraw, SamplePlan } from './sampler.ts';
+import type { DeviceName, StudySpec } from './spec.ts';
+
+export interface StudyContext {
+  readonly spec: StudySpec;
+  /** The scenario file with --set and the spec's `set` applied. */
+  readonly base: Scenario;
+  /** Knob overrides for the device spread's operating setting (`at`). */
+  readonly operatingPatch: Readonly<Record<string, number>>;
+  /** Margin below each device's tjMaxC used by the risk table. */
+  readonly tjMarginK: number;
+}
+
+/**
+ * Where the device spread is evaluated. The supervisor's ladder lowers the gate drive last,
+ * after fsw and dead time reached their maxima, so `ladderEnd` is the setting it actually
+ * reaches at full effort; `lowestGateDrive` changes the gate drive alone.
+ */
+function operatingPatchOf(spec: StudySpec, base: Scenario): Record<string, number> {
+  const at = spec.deviceSpread?.at ?? 'scenario';
+  if (at === 'scenario') return {};
+  const sup = base.supervisor;
+  if (at === 'ladderEnd' && !sup)
+    throw new ScenarioError([{ path: 'deviceSpread.at', message: `ladderEnd needs a supervisor in scenario ${base.name}; use lowestGateDrive or scenario` }]);
+  const patch: Record<string, number> = { 'gateDrive.vDriveV': sup?.gateDrive.enabled ? sup.gateDrive.minV : base.gateDrive.vDriveV };
+  if (at === 'ladderEnd' && sup) {
+    if (sup.fsw.enabled) patch['pwm.fswHz'] = Math.min(sup.fsw.maxHz, sup.stableBandHz?.[1] ?? Infinity);
+    if (sup.deadTime.enabled) patch['pwm.deadTimeS'] = sup.deadTime.maxS;
+  }
+  return patch;
+}
+
+export function studyContext(spec: StudySpec, base: Scenario): StudyContext {
+  if (spec.deviceSpread?.achievableHeat && !base.supervisor)
+    throw new ScenarioError([{ path: 'deviceSpread.achievableHeat', message: `needs a supervisor in scenario ${base.name} (its ladder defines the reachable settings)` }]);
+  const fixed = spec.set ? withSpecSet(base, spec.set) : base;
+  return { spec, base: fixed, operatingPatch: operatingPatchOf(spec, fixed), tjMarginK: spec.limits?.tjMarginK ?? fixed.limits.tjMarginK };
+}
+
+function withSpecSet(base: Scenario, set: Readonly<Record<string, unknown>>): Scenario {
+  try {
+    return withOverrides(base, set);
+  } catch (e) {
+    if (e instanceof ScenarioError) throw new ScenarioError(e.problems.map((p) => ({ path: `set: ${p.path}`, message: p.message })));
+    throw e;
+  }
+}
+
+/** The parameter patch of a sample (operating setting, seed for `run`, grid and random values). */
+export function paramPatch(ctx: StudyContext, plan: SamplePlan): Record<string, unknown> {
+  const patch: Record<string, unknown> = { ...ctx.operatingPatch };
+  if (ctx.spec.kind === 'run') patch['sim.seed'] = plan.seed;
+  Object.assign(patch, plan.params);
+  return patch;
+}
+
+/** Field overrides for the drawn device instances, relative to `s` (which may already carry grid values). */
+export function devicePatch(s: Scenario, devices: SamplePlan['devices']): Record<string, unknown> {
+  const patch: Record<string, unknown> = {};
+  for (const [name, d] of Object.entries(devices ?? {}) as [DeviceName, DeviceDraw][]) {
+    const dev = s.devices[name];
+    const at = `devices.${name}`;
+    if (d.vthShiftV !== undefined) patch[`${at}.vth25V`] = dev.vth25V + d.vthShiftV;
+    if (d.rdsOnScale !== undefined) {
+      patch[`${at}.rSeries25Ohm`] = dev.rSeries25Ohm * d.rdsOnScale;
+      patch[`${at}.kAPerV2`] = dev.kAPerV2 / d.rdsOnScale;
+    }
+    if (d.rSeriesScale !== undefined) patch[`${at}.rSeries25Ohm`] = dev.rSeries25Ohm * d.rSeriesScale;
+    if (d.channelScale !== undefined) patch[`${at}.kAPerV2`] = dev.kAPerV2 / d.channelScale;
+    if (d.gateChargeScale !== undefined) {
+      patch[`${at}.qgCoulomb`] = dev.qgCoulomb * d.gateChargeScale;
+      patch[`${at}.qgdCoulomb`] = dev.qgdCoulomb * d.gateChargeScale;
+      patch[`${at}.cissF`] = dev.cissF * d.gateChargeScale;
+    }
+    if (d.rthJcScale !== undefined) {
+      const scale = d.rthJcScale;
+      patch[`thermal.devices.${name}.junctionCase.rKPerW`] = s.thermal.devices[name].junctionCase.rKPerW.map((r) => r * scale);
+    }
+  }
+  return patch;
+}
+
+export interface SampleScenarios {
+  /** The sample with nominal devices (grid and random values applied). */
+  nominal: Scenario;
+  /** The sample as drawn (the nominal one when there is no device spread). */
+  drawn: Scenario;
+}
+
+/** Both scenarios of a sample. Throws ScenarioError when the draws give an invalid scenario. */
+export function sampleScenarios(ctx: StudyContext, plan: SamplePlan): SampleScenarios {
+  const nominal = withOverrides(ctx.base, paramPatch(ctx, plan));
+  const drawn = plan.devices ? withOverrides(nominal, devicePatch(nominal, plan.devices)) : nominal;
+  return { nominal, drawn };
+}
+
+/**
+ * Before a study starts: every grid value alone, every random parameter at its centre and the
+ * first sample's device draws must give a valid scenario; otherwise one ScenarioError naming
+ * the study path (`grid.pwm.fswHz[2]`, `random.params.buck.vinV`) and the scenario's complaint.
+ */
+export function preflight(ctx: StudyContext): void {
+  const problems: ScenarioProblem[] = [];
+  const tryPatch = (where: string, patch: Record<string, unknown>): void => {
+    try {
+      withOverrides(ctx.base, { ...ctx.operatingPatch, ...patch });
+    } catch (e) {
+      if (!(e instanceof ScenarioError)) throw e;
+      for (const p of e.problems) problems.push({ path: where, message: `${p.path}: ${p.message}` });
+    }
+  };
+  tryPatch('deviceSpread.at', {});
+  if (problems.length > 0) throw new ScenarioError(problems);
+  for (const axis of ctx.spec.grid) {
+    const before = problems.length;
+    for (let v = 0; v < axis.values.length && problems.length === before; v++) tryPatch(`grid.${axis.path}[${v}]`, { [axis.path]: axis.values[v] });
+  }
+  for (const [path, d] of Object.entries(ctx.spec.random?.params ?? {})) tryPatch(`random.params.${path}`, { [path]: centre(d) });
+  const ds = ctx.spec.deviceSpread;
+  if (problems.length === 0 && ds) {
+    // Each device at the centre of every spread distribution: the override paths and values must fit.
+    const mid: DeviceDraw = {};
+    if (ds.vthShiftV) mid.vthShiftV = centre(ds.vthShiftV);
+    if (ds.rdsOnScale) mid.rdsOnScale = centre(ds.rdsOnScale);
+    if (ds.gateChargeScale) mid.gateChargeScale = centre(ds.gateChargeScale);
+    if (ds.rthJcScale) mid.rthJcScale = centre(ds.rthJcScale);
+    try {
+      const s = withOverrides(ctx.base, ctx.operatingPatch);
+      withOverrides(s, devicePatch(s, Object.fromEntries(ds.devices.map((n) => [n, mid]))));
+    } catch (e) {
+      if (!(e instanceof ScenarioError)) throw e;
+      for (const p of e.problems) problems.push({ path: 'deviceSpread', message: `at the centre of the spread: ${p.path}: ${p.message}` });
+    }
+  }
+  if (problems.length > 0) throw new ScenarioError(problems);
+}
