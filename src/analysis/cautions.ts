@@ -15,7 +15,8 @@ export type CautionCode =
   | 'channelSaturation'
   | 'nearThreshold'
   | 'cannotTurnOn'
-  | 'lostRegulation';
+  | 'lostRegulation'
+  | 'inductorSaturation';
 
 export interface Caution {
   readonly code: CautionCode;
@@ -61,10 +62,16 @@ export function electricalCautions(plant: Plant, ep: ElectricalPoint, tjH: numbe
     if (od < lim.minOverdriveV && !(leg.hsSaturated || leg.lsSaturated))
       c.push({
         code: 'nearThreshold',
-        severity: 'warning',
+        severity: od < 0 ? 'danger' : 'warning',
         message: `${name}: gate drive only ${fmt(od, 2)} V above what a worst-case part needs at ${fmt(ipk)} A (floor ${fmt(lim.minOverdriveV, 2)} V); threshold spread can saturate one part`,
       });
   }
+  if (ep.bPeakT > ep.bSatT)
+    c.push({
+      code: 'inductorSaturation',
+      severity: 'danger',
+      message: `inductor peak flux ${fmt(ep.bPeakT, 3)} T exceeds the core's ${fmt(ep.bSatT, 2)} T: inductance collapses, current and losses beyond this model`,
+    });
   for (const [name, cap] of [['output', ep.capOut], ['input', ep.capIn]] as const) {
     if (cap.utilization > 1)
       c.push({ code: 'capRipple', severity: 'danger', message: `${name} capacitor ripple ${fmt(cap.rmsA, 2)} A rms exceeds its ${fmt(cap.ratingA, 2)} A rating: overheating` });

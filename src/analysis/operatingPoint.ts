@@ -14,6 +14,7 @@ import {
   heatToCoolantW,
   thermalSteadyState,
 } from '../model/thermal/network.ts';
+import { ScenarioError } from '../scenario/errors.ts';
 import type { Scenario } from '../scenario/parse.ts';
 import { type Caution, electricalCautions, thermalCautions } from './cautions.ts';
 
@@ -28,7 +29,7 @@ export interface OperatingPoint {
   coolantOutC: number;
   heatToCoolantW: number;
   heatToAmbientW: number;
-  /** Heat delivered to the coolant per watt of total loss. */
+  /** Share of the converter's total loss that reaches the coolant (ambient pickup excluded). */
   usefulHeatFraction: number;
   cautions: Caution[];
 }
@@ -46,7 +47,16 @@ export interface PointContext {
 }
 
 export function pointContext(scenario: Scenario): PointContext {
-  return { scenario, plant: buildPlant(scenario), net: buildThermalNetwork(thermalSpecOf(scenario)) };
+  let net: ThermalNetwork;
+  try {
+    net = buildThermalNetwork(thermalSpecOf(scenario));
+  } catch (e) {
+    // The thermal builder names its own fields (spec.devices[0]…); report them as scenario problems.
+    const msg = (e as Error).message.replace(/^spec\.devices\[0\]/, 'thermal.devices.highSide').replace(/^spec\.devices\[1\]/, 'thermal.devices.lowSide').replace(/^spec\./, 'thermal.');
+    const [path, ...rest] = msg.split(': ');
+    throw new ScenarioError([{ path, message: rest.join(': ') || msg }]);
+  }
+  return { scenario, plant: buildPlant(scenario), net };
 }
 
 /** Losses routed into the thermal network: device losses at the junctions, a share of the passives at the plate. */
@@ -82,6 +92,7 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
   // Relaxation only halves when the update changes sign (negative loop gain, e.g. below the
   // zero-temperature-coefficient point); a monotone climb is left undamped so runaway shows.
   let relax = 1;
+  let hotClimbs = 0;
   let lastStep = 0;
   for (; it < MAX_IT; it++) {
     const stepH = temps[net.layout.junction[0]] - tjH;
@@ -93,15 +104,23 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
     tjH += relax * stepH;
     tjL += relax * stepL;
     if (done) break;
+    // Runaway: still climbing past the limit for several iterations (a hot first guess alone is not runaway).
     if (!(tjH < runawayC && tjL < runawayC)) {
-      status = 'runaway';
-      break;
-    }
+      hotClimbs = step > 0 ? hotClimbs + 1 : 0;
+      if (hotClimbs >= 5 || !(Math.max(tjH, tjL) < 4 * runawayC)) {
+        status = 'runaway';
+        break;
+      }
+    } else hotClimbs = 0;
     ep = electricalPoint(plant, k, tjH, tjL);
     temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c));
   }
   if (it >= MAX_IT && status === 'ok') status = 'unconverged';
   const qCool = heatToCoolantW(net, temps, c.inletC, c.flowKgPerS);
+  // The converter's own share: the network is linear, so subtract what the coolant would pick
+  // up from ambient with no loss at all (a cold inlet also draws heat from a warmer room).
+  const baseline = thermalSteadyState(net, { deviceLossW: [0, 0], sinkExtraW: 0, inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC });
+  const qCool0 = heatToCoolantW(net, baseline, c.inletC, c.flowKgPerS);
   const qAmb = heatToAmbientW(net, temps, c.ambientC);
   const lim = scenario.limits;
   const cautions = [...electricalCautions(plant, ep, tjH, tjL, lim), ...thermalCautions(plant, tjH, tjL, lim)];
@@ -121,7 +140,7 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
     coolantOutC: temps[net.layout.coolant],
     heatToCoolantW: qCool,
     heatToAmbientW: qAmb,
-    usefulHeatFraction: ep.totalLossW > 0 ? qCool / ep.totalLossW : 0,
+    usefulHeatFraction: ep.totalLossW > 0 ? (qCool - qCool0) / ep.totalLossW : 0,
     cautions,
   };
 }

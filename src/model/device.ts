@@ -38,17 +38,23 @@ export interface GateDriveParams {
 }
 
 /** Temperature factor (1+α)^(Tj−25) (Graovac, Pürschel, Kiep, Infineon AN "MOSFET Power Losses Calculation Using the Data-Sheet Parameters", 2006). */
-let memoAlpha = NaN;
-let memoTj = NaN;
-let memoFactor = 1;
+// Hot path: a leg evaluation asks for the same (α, Tj) many times, alternating between the two
+// devices' junction temperatures, so two slots (least recently used replaced) keep both.
+let memoAlphaA = NaN, memoTjA = NaN, memoFactorA = 1;
+let memoAlphaB = NaN, memoTjB = NaN, memoFactorB = 1;
 export function rdsTempFactor(dev: DeviceParams, tjC: number): number {
-  // Hot path: the same (α, Tj) is asked for many times per leg evaluation.
-  if (dev.rdsTempCoeffPerK !== memoAlpha || tjC !== memoTj) {
-    memoAlpha = dev.rdsTempCoeffPerK;
-    memoTj = tjC;
-    memoFactor = Math.pow(1 + memoAlpha, tjC - 25);
+  const alpha = dev.rdsTempCoeffPerK;
+  if (alpha === memoAlphaA && tjC === memoTjA) return memoFactorA;
+  if (alpha !== memoAlphaB || tjC !== memoTjB) {
+    memoAlphaB = alpha;
+    memoTjB = tjC;
+    memoFactorB = Math.pow(1 + alpha, tjC - 25);
   }
-  return memoFactor;
+  // Promote the hit (or the new entry) to slot A.
+  const f = memoFactorB;
+  memoAlphaB = memoAlphaA; memoTjB = memoTjA; memoFactorB = memoFactorA;
+  memoAlphaA = alpha; memoTjA = tjC; memoFactorA = f;
+  return f;
 }
 
 /** Threshold voltage at Tj: falls a few mV/K (typical datasheet figure). */
@@ -75,16 +81,21 @@ export function saturationCurrentA(dev: DeviceParams, vgsV: number, tjC: number)
  * Below threshold the channel carries nothing and the drop is `vCapV`.
  */
 export function channelDropV(dev: DeviceParams, iA: number, vgsV: number, tjC: number, vCapV: number): number {
-  const kT = kAt(dev, tjC);
-  const vov = vgsV - vthAt(dev, tjC);
-  const rs = dev.rSeries25Ohm * rdsTempFactor(dev, tjC);
+  return channelDropAt(kAt(dev, tjC), vgsV - vthAt(dev, tjC), dev.rSeries25Ohm * rdsTempFactor(dev, tjC), dev.lambdaPerV, iA, vCapV);
+}
+
+/**
+ * `channelDropV` with the temperature-dependent constants already evaluated (k at Tj, overdrive
+ * Vgs − Vth(Tj), series resistance at Tj): for loops over many currents at one operating state.
+ */
+export function channelDropAt(kT: number, vov: number, rs: number, lambdaPerV: number, iA: number, vCapV: number): number {
   let vch: number;
   if (vov <= 0) return iA > 0 ? vCapV : 0;
   const isat = 0.5 * kT * vov * vov;
   if (iA < isat) {
     vch = vov - Math.sqrt(vov * vov - (2 * iA) / kT);
   } else {
-    vch = vov + (iA / isat - 1) / (isat > 0 ? dev.lambdaPerV : 1);
+    vch = vov + (iA / isat - 1) / (isat > 0 ? lambdaPerV : 1);
   }
   return Math.min(vch + rs * iA, vCapV);
 }

@@ -7,7 +7,7 @@
  * bus. Pin − Pout − ΣPloss then equals ī·(v̄_node − v_far): the residual of the duty solve.
  */
 import { type LegInput, type LegResult, evaluateLeg, newLegResult } from './leg.ts';
-import { coreLossW, dcrOhm, deltaBT } from './magnetics.ts';
+import { coreLossW, dcrOhm, deltaBT, peakFluxT } from './magnetics.ts';
 import type { BuckParams, HalfBridgeParams, Knobs, Plant } from './plant.ts';
 
 export interface CapacitorState {
@@ -32,6 +32,9 @@ export interface ElectricalPoint {
   inductorCopperW: number;
   inductorCoreW: number;
   deltaBT: number;
+  /** Peak flux density and the core's saturation level (NaN without a core model). */
+  bPeakT: number;
+  bSatT: number;
   capOut: CapacitorState;
   capIn: CapacitorState;
   vOutRipplePpV: number;
@@ -142,6 +145,8 @@ function finishBuck(plant: Plant, b: BuckParams, k: Knobs, vin: number, vo: numb
   return {
     topology: 'buck', duty, regulated, vBusV: vin, vOutV: vo, iMeanA: io, knobs: { ...k }, leg: snapshot(leg),
     inductorCopperW: copperW, inductorCoreW: coreW, deltaBT: b.core ? deltaBT(b.core, b.lH, leg.ripplePpA) : 0,
+    bPeakT: b.core ? peakFluxT(b.core, b.lH, Math.max(Math.abs(leg.iPeakA), Math.abs(leg.iValleyA))) : NaN,
+    bSatT: b.core ? (b.core.bSatT ?? Infinity) : NaN,
     capOut, capIn, vOutRipplePpV: ripplePp, pinW, poutW, semiW: leg.semiW, gateDriverW: leg.gateDriverW, passiveW, totalLossW,
     efficiency: pinW > 0 ? poutW / pinW : 0,
     balanceResidual: pinW > 0 ? Math.abs(pinW - poutW - totalLossW) / pinW : 0,
@@ -221,7 +226,7 @@ export function halfBridgeElectrical(plant: Plant, k: Knobs, tjH: number, tjL: n
   const totalLossW = acc.semiW + acc.gateDriverW + capLink.lossW;
   return {
     topology: 'halfBridge', duty: dutySum / nPh, regulated, vBusV: vLink, vOutV: vOutMean, iMeanA: iMeanLoad, knobs: { ...k },
-    leg: acc, inductorCopperW: 0, inductorCoreW: 0, deltaBT: 0, capOut: capState({ esrOhm: 0, rippleRatingA: Infinity }, 0), capIn: capLink,
+    leg: acc, inductorCopperW: 0, inductorCoreW: 0, deltaBT: 0, bPeakT: NaN, bSatT: NaN, capOut: capState({ esrOhm: 0, rippleRatingA: Infinity }, 0), capIn: capLink,
     vOutRipplePpV: 0, pinW, poutW, semiW: acc.semiW, gateDriverW: acc.gateDriverW, passiveW: capLink.lossW, totalLossW,
     efficiency: pinW > 0 ? poutW / pinW : 0,
     balanceResidual: pinW > 0 ? Math.abs(pinW - poutW - totalLossW) / pinW : 0,

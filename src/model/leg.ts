@@ -16,16 +16,18 @@ import {
   type DeviceParams,
   type GateDriveParams,
   type SwitchTiming,
-  channelDropV,
+  channelDropAt,
   diodeDropV,
   gateChargeCoulomb,
+  kAt,
   newSwitchTiming,
   qrrCoulomb,
-  reverseDropV,
+  rdsTempFactor,
   saturationCurrentA,
   switchTiming,
   turnOffEnergyJ,
   turnOnEnergyJ,
+  vthAt,
 } from './device.ts';
 
 export interface LegParams {
@@ -142,6 +144,10 @@ function conductRamp(p: LegParams, hs: boolean, i0: number, i1: number, vgs: num
   out.iMsA2 = (i0 * i0 + i0 * i1 + i1 * i1) / 3;
   const dev = hs ? p.hs : p.ls;
   const chOn = hs || p.lowSideMode === 'sync';
+  // Temperature-dependent channel constants once per ramp (same arithmetic as channelDropV).
+  const kT = kAt(dev, tjC);
+  const vov = vgs - vthAt(dev, tjC);
+  const rs = dev.rSeries25Ohm * rdsTempFactor(dev, tjC);
   const segs = i0 * i1 < 0 ? 2 : 1;
   const xz = segs === 2 ? i0 / (i0 - i1) : 1;
   for (let s = 0; s < segs; s++) {
@@ -154,8 +160,9 @@ function conductRamp(p: LegParams, hs: boolean, i0: number, i1: number, vgs: num
       const forward = hs ? i > 0 : i < 0;
       const mag = Math.abs(i);
       let v: number;
-      if (forward) v = chOn ? channelDropV(dev, mag, vgs, tjC, vCap) : vCap;
-      else v = reverseDropV(dev, mag, vgs, tjC, chOn, vCap);
+      // Third quadrant: channel and body diode in parallel, the smaller drop (as reverseDropV).
+      if (forward) v = chOn ? channelDropAt(kT, vov, rs, dev.lambdaPerV, mag, vCap) : vCap;
+      else v = chOn ? Math.min(diodeDropV(dev, mag, tjC), channelDropAt(kT, vov, rs, dev.lambdaPerV, mag, vCap)) : diodeDropV(dev, mag, tjC);
       out.lossW += w * GL_W[k] * v * mag;
       // Node voltage offset: HS forward lowers the node below the bus, LS reverse lowers it below 0.
       const signedDrop = hs ? (forward ? -v : v) : forward ? v : -v;

@@ -7,6 +7,13 @@ export interface CoreParams {
   readonly aeM2: number;
   readonly turns: number;
   readonly volumeM3: number;
+  /** Saturation flux density; the model does not follow the core past it, it flags it. */
+  readonly bSatT?: number;
+}
+
+/** Peak flux density B = L·i_pk/(N·Ae) (Faraday, linear core). */
+export function peakFluxT(core: CoreParams, lH: number, iPeakA: number): number {
+  return (lH * Math.abs(iPeakA)) / (core.turns * core.aeM2);
 }
 
 /** Copper DCR(T) = DCR20·(1 + 0.00393·(T − 20)) (common practice, annealed copper coefficient). */

@@ -79,6 +79,7 @@ const coreSchema = z
     aeM2: pos(),
     turns: z.number().int().positive(),
     volumeM3: pos(),
+    bSatT: pos().default(0.35).describe('flux density at which the core saturates (ferrite ≈ 0.3–0.4 T)'),
   })
   .strict();
 

@@ -259,3 +259,18 @@ export function evaluateSample(ctx: StudyContext, plan: SamplePlan, cache?: Nomi
   }
   return { index: plan.index, seed: plan.seed, params: plan.params, ...(plan.devices ? { devices: plan.devices } : {}), result };
 }
+
+const POINT_FIELDS = [
+  'status', 'regulated', 'fswHz', 'deadTimeS', 'vDriveV', 'totalLossW', 'semiconductorLossW', 'heatToCoolantW', 'efficiency',
+  'tjHsC', 'tjLsC', 'tjPeakC', 'tjHeadroomK', 'hsSaturated', 'lsSaturated', 'hsCannotTurnOn', 'lsCannotTurnOn', 'saturation',
+  'runaway', 'tjOverLimit', 'cautions', 'nominalTotalLossW', 'nominalHeatToCoolantW', 'nominalTjPeakC', 'dLossW',
+  'dHeatToCoolantW', 'dTjPeakK', 'achievableHeatW', 'nominalAchievableHeatW', 'dAchievableHeatW', 'error',
+] as const satisfies ReadonlyArray<keyof (PointSummary & SpreadCost) | 'error'>;
+
+const RUN_FIELDS = [
+  'status', 'cause', 'limitation', 'tEndS', 'tjHsPeakC', 'tjLsPeakC', 'tjPeakC', 'tjHeadroomK', 'heatToCoolantMeanW',
+  'totalLossMeanW', 'runaway', 'tjOverLimit', 'warnings', 'error',
+] as const satisfies ReadonlyArray<keyof RunSummary | 'error'>;
+
+/** Result fields each kind can put in results.csv (`outputs`); margins fields are not known up front. */
+export const RESULT_FIELDS: Readonly<Record<string, readonly string[] | undefined>> = { point: POINT_FIELDS, run: RUN_FIELDS, margins: undefined };

@@ -6,6 +6,8 @@ import type { Command } from 'commander';
 import * as check from './check.ts';
 import * as point from './point.ts';
 import * as schema from './schema.ts';
+import * as study from './study.ts';
+import * as studyMerge from './studyMerge.ts';
 import * as sweep from './sweep.ts';
 
 export interface CliCommand {
@@ -17,4 +19,6 @@ export const COMMANDS: readonly CliCommand[] = [
   point,
   sweep,
   schema,
+  study,
+  studyMerge,
 ];

@@ -1,0 +1,225 @@
+/**
+ * `startServer`: HTTP (express) and the live-session websocket endpoint on one port.
+ *
+ * Upgrades are handled by hand (`noServer`), so every refusal is decided before a session exists:
+ * wrong path → 404, foreign Host or Origin → 403. Past the session limit the upgrade is accepted
+ * only to say why (an error message) and close with 1013 "try again later" — a browser cannot read
+ * the body of a refused upgrade, but it can read that.
+ */
+import { type IncomingMessage, type Server, createServer } from 'node:http';
+import type { Duplex } from 'node:stream';
+import { fileURLToPath } from 'node:url';
+import { WebSocket, WebSocketServer } from 'ws';
+import { createApp } from './app.ts';
+import { type CaseLibrary, caseLibrary } from './cases.ts';
+import { type ConnectionLimits, attachConnection } from './connection.ts';
+import { PROTOCOL_VERSION } from './protocol.ts';
+import { hostChecker, originAllowed } from './security.ts';
+import type { Session } from './session.ts';
+
+export interface ServeOptions {
+  host?: string;
+  port?: number;
+  /** Case every new session starts with. */
+  defaultCase?: string;
+  casesDir?: string;
+  webDir?: string;
+  maxSessions?: number;
+  frameHz?: number;
+  maxPointsPerFrame?: number;
+  traceMaxRecords?: number;
+  /** Hard websocket payload cap (ws closes the connection with 1009 past it). */
+  maxPayloadBytes?: number;
+  limits?: Partial<ConnectionLimits>;
+  /** Total compute a tick may spend across running sessions (ms). */
+  tickBudgetMs?: number;
+  log?: (line: string) => void;
+}
+
+export interface RunningServer {
+  readonly url: string;
+  readonly host: string;
+  readonly port: number;
+  readonly http: Server;
+  readonly sessions: ReadonlyMap<string, Session>;
+  /** Bytes queued to each session's client (for tests and the benchmark). */
+  bufferedBytes(): Map<string, number>;
+  close(): Promise<void>;
+}
+
+const ROOT = fileURLToPath(new URL('../..', import.meta.url));
+
+export const DEFAULTS = Object.freeze({
+  host: '127.0.0.1',
+  port: 8080,
+  defaultCase: 'buck-cabin-warmup',
+  maxSessions: 8,
+  frameHz: 25,
+  maxPointsPerFrame: 60,
+  traceMaxRecords: 100_000,
+  maxPayloadBytes: 1024 * 1024,
+  tickBudgetMs: 28,
+  limits: {
+    maxMessageBytes: 192 * 1024,
+    commandsPerSecond: 40,
+    commandBurst: 80,
+    maxQueuedCommands: 16,
+    frameHighWaterBytes: 256 * 1024,
+    hardCapBytes: 8 * 1024 * 1024,
+    heartbeatMs: 15_000,
+  } satisfies ConnectionLimits,
+});
+
+/** Thrown when the port is taken or the address cannot be bound: a message the user can act on. */
+export class ListenError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'ListenError';
+  }
+}
+
+function refuse(socket: Duplex, status: number, text: string): void {
+  socket.write(`HTTP/1.1 ${status} ${text}\r\nConnection: close\r\nContent-Type: text/plain\r\nContent-Length: ${Buffer.byteLength(text)}\r\n\r\n${text}`);
+  socket.destroy();
+}
+
+export async function startServer(opts: ServeOptions = {}): Promise<RunningServer> {
+  const host = opts.host ?? DEFAULTS.host;
+  const port = opts.port ?? DEFAULTS.port;
+  const log = opts.log ?? (() => undefined);
+  const frameHz = opts.frameHz ?? DEFAULTS.frameHz;
+  const maxSessions = opts.maxSessions ?? DEFAULTS.maxSessions;
+  const traceMaxRecords = opts.traceMaxRecords ?? DEFAULTS.traceMaxRecords;
+  const limits: ConnectionLimits = { ...DEFAULTS.limits, ...opts.limits };
+  const cases: CaseLibrary = caseLibrary(opts.casesDir ?? `${ROOT}cases`);
+  const defaultCase = opts.defaultCase ?? DEFAULTS.defaultCase;
+  if ((await cases.read(defaultCase)) === undefined)
+    throw new ListenError(`no case named ${JSON.stringify(defaultCase)}; known cases: ${(await cases.list()).join(', ') || '(none)'}`);
+  const tickBudgetMs = opts.tickBudgetMs ?? DEFAULTS.tickBudgetMs;
+  const hostAllowed = hostChecker(host);
+
+  const sessions = new Map<string, Session>();
+  const stats = new Map<string, () => number>();
+  let pendingConnections = 0;
+  let running = 0;
+
+  const app = createApp({
+    webDir: opts.webDir ?? `${ROOT}web`,
+    cases,
+    defaultCase,
+    hostAllowed,
+    session: (id) => sessions.get(id),
+    sessionCount: () => sessions.size,
+    maxSessions,
+  });
+  const http = createServer(app);
+  // Connections from a stalled client must not hold the server open forever.
+  http.headersTimeout = 20_000;
+  http.requestTimeout = 60_000;
+  const wss = new WebSocketServer({ noServer: true, maxPayload: opts.maxPayloadBytes ?? DEFAULTS.maxPayloadBytes, perMessageDeflate: false });
+
+  wss.on('connection', (ws: WebSocket) => {
+    pendingConnections--;
+    const { session, stats: st } = attachConnection(ws, {
+      limits,
+      serverName: 'lossdial live bench',
+      frameHz,
+      traceMaxRecords,
+      cases: () => cases.list(),
+      register: (s) => {
+        sessions.set(s.id, s);
+      },
+      unregister: (s) => {
+        sessions.delete(s.id);
+        stats.delete(s.id);
+      },
+      runningChanged: (d) => {
+        running = Math.max(0, running + d);
+      },
+      log,
+      session: {
+        cases,
+        defaultCase,
+        frameHz,
+        maxPointsPerFrame: opts.maxPointsPerFrame ?? DEFAULTS.maxPointsPerFrame,
+        traceMaxRecords,
+        // The tick budget is shared: many running sessions each get a smaller slice, so the event
+        // loop keeps its rhythm and every session still gets its frames.
+        budgetMs: () => Math.max(2, Math.min(20, tickBudgetMs / Math.max(1, running))),
+        now: () => performance.now(),
+        log,
+      },
+    });
+    if (sessions.has(session.id)) stats.set(session.id, () => st.bufferedBytes());
+  });
+
+  const refuseFull = (ws: WebSocket): void => {
+    ws.on('error', () => undefined);
+    const msg = {
+      v: PROTOCOL_VERSION,
+      type: 'error',
+      code: 'tooManySessions',
+      message: `too many live sessions: this server runs at most ${maxSessions} at once; close another tab and reload`,
+    };
+    ws.send(JSON.stringify(msg), () => ws.close(1013, 'too many sessions'));
+  };
+
+  http.on('upgrade', (req: IncomingMessage, socket: Duplex, head: Buffer) => {
+    socket.on('error', () => undefined);
+    const path = (req.url ?? '').split('?')[0];
+    if (path !== '/ws') return refuse(socket, 404, 'Not Found');
+    if (!hostAllowed(req.headers.host)) return refuse(socket, 403, 'Forbidden: unknown host');
+    if (!originAllowed(req)) return refuse(socket, 403, 'Forbidden: cross-origin websocket refused');
+    const full = sessions.size + pendingConnections >= maxSessions;
+    if (!full) pendingConnections++;
+    wss.handleUpgrade(req, socket, head, (ws) => {
+      if (full) refuseFull(ws);
+      else wss.emit('connection', ws, req);
+    });
+  });
+
+  await new Promise<void>((resolve, reject) => {
+    const onError = (e: NodeJS.ErrnoException): void => {
+      http.off('listening', onListening);
+      if (e.code === 'EADDRINUSE')
+        reject(new ListenError(`port ${port} on ${host} is already in use: stop the other server, pick another --port, or use --port 0 for any free port`));
+      else if (e.code === 'EADDRNOTAVAIL' || e.code === 'ENOTFOUND')
+        reject(new ListenError(`cannot listen on ${host}: no such local address`));
+      else if (e.code === 'EACCES') reject(new ListenError(`not allowed to listen on ${host}:${port} (ports below 1024 need privileges)`));
+      else reject(e);
+    };
+    const onListening = (): void => {
+      http.off('error', onError);
+      resolve();
+    };
+    http.once('error', onError);
+    http.once('listening', onListening);
+    http.listen(port, host);
+  });
+  http.on('error', (e) => log(`http error: ${e.message}`));
+
+  const addr = http.address();
+  const actualPort = typeof addr === 'object' && addr ? addr.port : port;
+  const urlHost = host.includes(':') ? `[${host}]` : host === '0.0.0.0' ? '127.0.0.1' : host;
+  const url = `http://${urlHost}:${actualPort}/`;
+
+  let closing: Promise<void> | undefined;
+  return {
+    url,
+    host,
+    port: actualPort,
+    http,
+    sessions,
+    bufferedBytes: () => new Map([...stats].map(([id, f]) => [id, f()])),
+    close(): Promise<void> {
+      closing ??= new Promise<void>((resolve) => {
+        for (const ws of wss.clients) ws.terminate();
+        for (const s of sessions.values()) s.dispose();
+        wss.close();
+        http.closeAllConnections();
+        http.close(() => resolve());
+      });
+      return closing;
+    },
+  };
+}

@@ -1,0 +1,399 @@
+/**
+ * Running a study on this machine: a piscina worker pool evaluates batches of samples, each
+ * finished batch is appended to `results.jsonl` at once, and a rerun with the same `--out`
+ * resumes where the last one stopped. When every sample of the run's shard is in, the results
+ * are rewritten sorted by index with `results.csv` (and, for a whole study, `summary.json` and
+ * `report.html`), all written atomically. The files hold no times or machine details, so the
+ * same study gives the same bytes on any machine, with any worker count or shard split.
+ */
+import { createHash } from 'node:crypto';
+import { mkdir, open, readFile, truncate } from 'node:fs/promises';
+import { createRequire } from 'node:module';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { Piscina } from 'piscina';
+import { writeFileAtomic, writeJsonAtomic } from '../io/atomic.ts';
+import type { Scenario } from '../scenario/parse.ts';
+import type { SampleRecord } from './evaluate.ts';
+import { RESULT_FIELDS } from './evaluate.ts';
+import { MARGINS_AVAILABLE } from './margins.ts';
+import { ResultsFileError, parseRecords, readResultsText, resultsCsv, sortedJsonl } from './records.ts';
+import { renderStudyReport } from './report.ts';
+import { type StudySummary, summarize } from './risk.ts';
+import { shardIndexes } from './sampler.ts';
+import type { Shard } from './shard.ts';
+import type { StudySpec } from './spec.ts';
+import { parseStudySpecObject } from './spec.ts';
+import { parseScenarioObject } from '../scenario/parse.ts';
+import { ScenarioError } from '../scenario/errors.ts';
+import { type StudyContext, preflight, studyContext } from './variant.ts';
+import type { StudyWorkerData } from './worker.ts';
+
+export const MANIFEST_FILE = 'study.json';
+export const RESULTS_FILE = 'results.jsonl';
+export const CSV_FILE = 'results.csv';
+export const SUMMARY_FILE = 'summary.json';
+export const REPORT_FILE = 'report.html';
+const FORMAT = 'lossdial-study/1';
+
+/** A study that cannot run or merge as asked (bad directory, other study's results, gaps). */
+export class StudyError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'StudyError';
+  }
+}
+
+export interface StudyManifest {
+  format: string;
+  study: string;
+  kind: string;
+  scenario: string;
+  total: number;
+  shard: Shard | null;
+  specHash: string;
+  scenarioHash: string;
+  spec: unknown;
+  scenarioInput: unknown;
+}
+
+function canonical(v: unknown): string {
+  if (Array.isArray(v)) return `[${v.map(canonical).join(',')}]`;
+  if (v !== null && typeof v === 'object')
+    return `{${Object.keys(v)
+      .sort()
+      .map((k) => `${JSON.stringify(k)}:${canonical((v as Record<string, unknown>)[k])}`)
+      .join(',')}}`;
+  return JSON.stringify(v) ?? 'null';
+}
+
+function hashOf(v: unknown): string {
+  return createHash('sha256').update(canonical(v)).digest('hex').slice(0, 16);
+}
+
+export function manifestOf(spec: StudySpec, base: Scenario, shard: Shard | undefined): StudyManifest {
+  return {
+    format: FORMAT,
+    study: spec.name,
+    kind: spec.kind,
+    scenario: base.name,
+    total: spec.total,
+    shard: shard && shard.n > 1 ? { k: shard.k, n: shard.n } : null,
+    specHash: hashOf(spec.input),
+    scenarioHash: hashOf(base.input),
+    spec: spec.input,
+    scenarioInput: base.input,
+  };
+}
+
+/** The study's context, checked before anything is written: spec × scenario, outputs, kind. */
+export function prepareStudy(spec: StudySpec, base: Scenario): StudyContext {
+  if (spec.kind === 'margins' && !MARGINS_AVAILABLE)
+    throw new ScenarioError([{ path: 'kind', message: 'margins studies need the margin analysis, which this build does not have yet; use point or run' }]);
+  const ctx = studyContext(spec, base);
+  preflight(ctx);
+  const known = RESULT_FIELDS[spec.kind];
+  const problems = (spec.outputs ?? []).flatMap((o, i) =>
+    known && !known.includes(o) ? [{ path: `outputs[${i}]`, message: `unknown result field ${JSON.stringify(o)} for kind ${spec.kind}; known: ${known.join(', ')}` }] : [],
+  );
+  if (problems.length > 0) throw new ScenarioError(problems);
+  return ctx;
+}
+
+async function readIfExists(path: string): Promise<string | undefined> {
+  try {
+    return await readFile(path, 'utf8');
+  } catch (e) {
+    if ((e as NodeJS.ErrnoException).code === 'ENOENT') return undefined;
+    throw e;
+  }
+}
+
+function plotlySource(): Promise<string> {
+  const require = createRequire(import.meta.url);
+  return readFile(require.resolve('plotly.js-dist-min'), 'utf8');
+}
+
+/**
+ * Write the finished outputs for `lines` (every sample of the manifest's shard): sorted
+ * results.jsonl and results.csv; for a whole study also summary.json and report.html.
+ */
+export async function finalizeStudy(outDir: string, manifest: StudyManifest, lines: ReadonlyMap<number, string>): Promise<StudySummary | undefined> {
+  const spec = parseStudySpecObject(manifest.spec);
+  const base = parseScenarioObject(manifest.scenarioInput);
+  const ctx = studyContext(spec, base);
+  await writeFileAtomic(join(outDir, RESULTS_FILE), sortedJsonl(lines));
+  const records: SampleRecord[] = parseRecords(lines);
+  await writeFileAtomic(join(outDir, CSV_FILE), resultsCsv(records, spec.outputs));
+  if (manifest.shard) return undefined;
+  const summary = summarize(records, spec.grid.map((a) => a.path));
+  await writeJsonAtomic(join(outDir, SUMMARY_FILE), { study: spec.name, scenario: base.name, kind: spec.kind, total: spec.total, operating: ctx.operatingPatch, tjMarginK: ctx.tjMarginK, ...summary });
+  const html = renderStudyReport(
+    { study: spec.name, description: spec.description, scenario: base.name, kind: spec.kind, total: spec.total, operating: ctx.operatingPatch, tjMarginK: ctx.tjMarginK, spread: spec.deviceSpread, summary },
+    await plotlySource(),
+  );
+  await writeFileAtomic(join(outDir, REPORT_FILE), html);
+  return summary;
+}
+
+export interface StudyProgress {
+  start(total: number, done: number): void;
+  update(done: number): void;
+  stop(): void;
+}
+
+export interface RunStudyOptions {
+  spec: StudySpec;
+  /** The scenario with the command line's --set applied (the spec's `set` comes on top). */
+  scenario: Scenario;
+  outDir: string;
+  workers: number;
+  shard?: Shard;
+  progress?: StudyProgress;
+  /** Aborting stops dispatch; samples in flight finish and are written. */
+  signal?: AbortSignal;
+  /** Samples per worker task (default: sized from the study, 1..16). */
+  batchSize?: number;
+}
+
+export interface RunStudyResult {
+  /** Samples in this run's shard (the whole study without a shard). */
+  shardTotal: number;
+  /** Found done in results.jsonl at start (resumed), and computed in this run. */
+  resumed: number;
+  computed: number;
+  /** A cut-short last line found at start and dropped (its sample was recomputed). */
+  droppedPartialLine: boolean;
+  interrupted: boolean;
+  elapsedS: number;
+  /** Samples per second over the computing part of this run (pool start excluded). */
+  samplesPerS: number;
+  complete: boolean;
+  counts: Record<string, number>;
+  summary?: StudySummary;
+}
+
+export async function runStudy(opts: RunStudyOptions): Promise<RunStudyResult> {
+  const { spec, scenario, outDir } = opts;
+  const t0 = performance.now();
+  prepareStudy(spec, scenario);
+  const manifest = manifestOf(spec, scenario, opts.shard);
+  await mkdir(outDir, { recursive: true });
+  const manifestPath = join(outDir, MANIFEST_FILE);
+  const resultsPath = join(outDir, RESULTS_FILE);
+  const existing = await readIfExists(manifestPath);
+  if (existing !== undefined) {
+    let old: Partial<StudyManifest>;
+    try {
+      old = JSON.parse(existing) as Partial<StudyManifest>;
+    } catch {
+      throw new StudyError(`${manifestPath} is not a study manifest; use another --out`);
+    }
+    const differs = (['format', 'specHash', 'scenarioHash', 'total'] as const).filter((k) => old[k] !== manifest[k]);
+    if (JSON.stringify(old.shard ?? null) !== JSON.stringify(manifest.shard)) differs.push('shard' as never);
+    if (differs.length > 0)
+      throw new StudyError(
+        `${outDir} holds results of another study or shard (${differs.join(', ')} differ${differs.length === 1 ? 's' : ''}); use another --out, or delete it to start over`,
+      );
+  } else {
+    if ((await readIfExists(resultsPath)) !== undefined) throw new StudyError(`${resultsPath} exists without ${MANIFEST_FILE}; use another --out`);
+    await writeJsonAtomic(manifestPath, manifest);
+  }
+
+  const mine = shardIndexes(spec.total, opts.shard);
+  const shardN = opts.shard?.n ?? 1;
+  const shardK = opts.shard?.k ?? 0;
+  let read = { lines: new Map<number, string>(), goodBytes: 0, partial: undefined as string | undefined };
+  const text = await readIfExists(resultsPath);
+  if (text !== undefined) {
+    try {
+      read = readResultsText(text, spec.total, resultsPath);
+    } catch (e) {
+      if (e instanceof ResultsFileError) throw new StudyError(e.message);
+      throw e;
+    }
+    for (const i of read.lines.keys())
+      if (i % shardN !== shardK) throw new StudyError(`${resultsPath} holds sample ${i}, which is not in shard ${shardK}/${shardN}`);
+    // Drop a line cut short by an interruption before appending after it.
+    if (read.partial !== undefined) await truncate(resultsPath, read.goodBytes);
+  }
+  const todo = mine.filter((i) => !read.lines.has(i));
+  const resumed = mine.length - todo.length;
+  let computed = 0;
+  let interrupted = false;
+  let tCompute0 = performance.now();
+  let tCompute1 = tCompute0;
+  if (todo.length > 0) {
+    ({ computed, interrupted, tCompute0, tCompute1 } = await computeSamples(opts, resultsPath, todo, resumed, mine.length));
+  }
+  const complete = !interrupted && computed === todo.length;
+  const result: RunStudyResult = {
+    shardTotal: mine.length,
+    resumed,
+    computed,
+    droppedPartialLine: read.partial !== undefined,
+    interrupted,
+    elapsedS: (performance.now() - t0) / 1000,
+    samplesPerS: computed > 0 && tCompute1 > tCompute0 ? computed / ((tCompute1 - tCompute0) / 1000) : 0,
+    complete,
+    counts: {},
+  };
+  if (!complete) return result;
+  const final = readResultsText(await readFile(resultsPath, 'utf8'), spec.total, resultsPath);
+  const missing = mine.filter((i) => !final.lines.has(i));
+  if (missing.length > 0 || final.partial !== undefined) throw new StudyError(`${resultsPath}: ${missing.length} samples missing after the run (first: ${missing.slice(0, 5).join(', ')})`);
+  for (const line of final.lines.values()) {
+    const status = (JSON.parse(line) as SampleRecord).result.status;
+    result.counts[status] = (result.counts[status] ?? 0) + 1;
+  }
+  result.summary = await finalizeStudy(outDir, manifest, final.lines);
+  return result;
+}
+
+async function computeSamples(
+  opts: RunStudyOptions,
+  resultsPath: string,
+  todo: readonly number[],
+  resumed: number,
+  shardTotal: number,
+): Promise<{ computed: number; interrupted: boolean; tCompute0: number; tCompute1: number }> {
+  const workers = Math.max(1, Math.floor(opts.workers));
+  const batchSize = opts.batchSize ?? Math.min(16, Math.max(1, Math.ceil(todo.length / (workers * 32))));
+  const batches: number[][] = [];
+  for (let b = 0; b < todo.length; b += batchSize) batches.push(todo.slice(b, b + batchSize));
+  const isTs = import.meta.url.endsWith('.ts');
+  const workerData: StudyWorkerData = { specInput: opts.spec.input, scenarioInput: opts.scenario.input };
+  const pool = new Piscina({
+    filename: fileURLToPath(new URL(isTs ? './worker.ts' : './worker.js', import.meta.url)),
+    minThreads: workers,
+    maxThreads: workers,
+    idleTimeout: 60_000,
+    execArgv: isTs ? ['--import', 'tsx'] : [],
+    workerData,
+  });
+  const fh = await open(resultsPath, 'a');
+  let computed = 0;
+  let stopped = false;
+  let interrupted = false;
+  let failure: unknown;
+  let writing: Promise<unknown> = Promise.resolve();
+  const tCompute0 = performance.now();
+  opts.progress?.start(shardTotal, resumed);
+  try {
+    await new Promise<void>((resolve) => {
+      let next = 0;
+      let inFlight = 0;
+      const finishIfIdle = (): void => {
+        if (inFlight === 0 && (stopped || next >= batches.length)) resolve();
+      };
+      const pump = (): void => {
+        while (!stopped && inFlight < 2 * workers && next < batches.length) {
+          const batch = batches[next++];
+          inFlight++;
+          pool
+            .run(batch)
+            .then((text: string) => {
+              // Appends are chained so lines never interleave; one write per batch.
+              writing = writing.then(async () => {
+                await fh.write(text);
+                computed += batch.length;
+                opts.progress?.update(resumed + computed);
+              });
+              return writing;
+            })
+            .catch((e: unknown) => {
+              failure ??= e;
+              stopped = true;
+            })
+            .finally(() => {
+              inFlight--;
+              pump();
+              finishIfIdle();
+            });
+        }
+        finishIfIdle();
+      };
+      if (opts.signal?.aborted) {
+        stopped = interrupted = true;
+        resolve();
+        return;
+      }
+      opts.signal?.addEventListener('abort', () => {
+        stopped = interrupted = true;
+        finishIfIdle();
+      });
+      pump();
+    });
+    await writing;
+  } finally {
+    opts.progress?.stop();
+    await fh.close();
+    await pool.destroy();
+  }
+  const tCompute1 = performance.now();
+  if (failure !== undefined) throw failure;
+  return { computed, interrupted, tCompute0, tCompute1 };
+}
+
+/** Read a finished or partial study directory for merging. */
+export async function readStudyDir(dir: string): Promise<{ manifest: StudyManifest; read: ReturnType<typeof readResultsText> }> {
+  const m = await readIfExists(join(dir, MANIFEST_FILE));
+  if (m === undefined) throw new StudyError(`${dir}: no ${MANIFEST_FILE}; not a study output directory`);
+  let manifest: StudyManifest;
+  try {
+    manifest = JSON.parse(m) as StudyManifest;
+  } catch {
+    throw new StudyError(`${join(dir, MANIFEST_FILE)} is not a study manifest`);
+  }
+  if (manifest.format !== FORMAT) throw new StudyError(`${join(dir, MANIFEST_FILE)}: format ${JSON.stringify(manifest.format)}, expected ${FORMAT}`);
+  const text = (await readIfExists(join(dir, RESULTS_FILE))) ?? '';
+  try {
+    return { manifest, read: readResultsText(text, manifest.total, join(dir, RESULTS_FILE)) };
+  } catch (e) {
+    if (e instanceof ResultsFileError) throw new StudyError(e.message);
+    throw e;
+  }
+}
+
+/**
+ * Combine shard outputs into one study output, identical to a single-machine run. All inputs
+ * must come from the same study (spec and scenario); together they must hold every sample
+ * exactly once.
+ */
+export async function mergeStudies(dirs: readonly string[], outDir: string): Promise<{ total: number; summary: StudySummary | undefined }> {
+  if (dirs.length === 0) throw new StudyError('study-merge: give at least one study directory');
+  const parts = [];
+  for (const d of dirs) parts.push({ dir: d, ...(await readStudyDir(d)) });
+  const first = parts[0].manifest;
+  for (const p of parts.slice(1)) {
+    const differs = (['study', 'specHash', 'scenarioHash', 'total'] as const).filter((k) => p.manifest[k] !== first[k]);
+    if (differs.length > 0) throw new StudyError(`${p.dir} is from another study than ${parts[0].dir} (${differs.join(', ')} differ)`);
+  }
+  const lines = new Map<number, string>();
+  const from = new Map<number, string>();
+  const dups: string[] = [];
+  for (const p of parts) {
+    if (p.read.partial !== undefined) throw new StudyError(`${p.dir}: its results end with a cut-short line; finish that shard first (rerun it with the same --out)`);
+    for (const [i, line] of p.read.lines) {
+      if (lines.has(i)) {
+        dups.push(`${i} (${from.get(i)} and ${p.dir})`);
+        continue;
+      }
+      lines.set(i, line);
+      from.set(i, p.dir);
+    }
+  }
+  if (dups.length > 0) throw new StudyError(`study-merge: ${dups.length} samples appear more than once, e.g. ${dups.slice(0, 3).join('; ')}`);
+  const missing: number[] = [];
+  for (let i = 0; i < first.total; i++) if (!lines.has(i)) missing.push(i);
+  if (missing.length > 0) {
+    const shards = [...new Set(parts.map((p) => p.manifest.shard?.n).filter((n): n is number => n !== undefined))];
+    const hint = shards.length === 1 ? ` (shards ${[...new Set(missing.map((i) => i % shards[0]))].slice(0, 10).join(', ')} of ${shards[0]} incomplete or not given)` : '';
+    throw new StudyError(`study-merge: ${missing.length} of ${first.total} samples missing, first ${missing.slice(0, 5).join(', ')}${hint}`);
+  }
+  await mkdir(outDir, { recursive: true });
+  const manifest: StudyManifest = { ...first, shard: null };
+  await writeJsonAtomic(join(outDir, MANIFEST_FILE), manifest);
+  const summary = await finalizeStudy(outDir, manifest, lines);
+  return { total: first.total, summary };
+}
