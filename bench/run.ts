@@ -7,9 +7,10 @@ import { mkdirSync, renameSync, writeFileSync } from 'node:fs';
 import { cpus } from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { benchOpPoint } from './opPoint.ts';
+import { benchStudy } from './study.ts';
 import type { Bench, BenchResult } from './types.ts';
 
-const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint]];
+const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint], ['study', benchStudy]];
 
 function line(r: BenchResult): string {
   const value = r.value >= 100 ? Math.round(r.value).toString() : r.value.toPrecision(4);

@@ -9,6 +9,9 @@
  *   y = C·x (+ D·d_held);  y_f = y_f⁻ + a·(y − y_f⁻);  e = −y_f;
  *   x_pi = x_pi⁻ + b0·e + b1·e⁻;  d = N > 0 ? q_N : x_pi;  x⁺ = Ad·x + Bd·d;  q shifts in x_pi.
  *
+ * Without integral action (b0 + b1 = 0) the stored offset x_pi − kp·e is an invariant (eigenvalue
+ * exactly 1, unobservable in L(z) = kp·…): it only shifts the equilibrium, so x_pi = b0·e is used.
+ *
  * The matrix is built by applying that update to unit vectors, so it is the engine's sample
  * step by construction. Stable iff every eigenvalue has modulus < 1.
  */
@@ -47,7 +50,7 @@ export function closedLoopStep(loop: DiscreteLoop, lay: ClosedLoopLayout, s: Flo
   let yf = y;
   if (lay.filter >= 0) yf = s[lay.filter] + loop.filterA * (y - s[lay.filter]);
   const e = -yf;
-  const xPi = s[lay.pi] + loop.b0 * e + loop.b1 * s[lay.ePrev];
+  const xPi = loop.integrator ? s[lay.pi] + loop.b0 * e + loop.b1 * s[lay.ePrev] : loop.b0 * e;
   const N = loop.delaySamples;
   const duty = N > 0 ? s[lay.delay + N - 1] : xPi;
   for (let i = 0; i < n; i++) {

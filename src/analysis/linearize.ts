@@ -6,7 +6,7 @@
  *
  * x: buck [iL, vC] or half-bridge [i, vLink]; d: duty; y: the regulated quantity (buck output
  * voltage including the ESR divider, half-bridge load current); w: disturbance inputs (source
- * voltage, load). Every column is computed with two step sizes a factor 100 apart; their
+ * voltage, load). Every column is computed with two step sizes (1e-6 and 1e-4 of scale); their
  * relative discrepancy is reported (large values mean the model is not smooth at the point,
  * e.g. a valley current at zero). States that cannot move (a DC link fed by an ideal source)
  * are dropped. A point that is not an equilibrium is refused.
@@ -58,10 +58,12 @@ export class LinearizationError extends Error {
 export interface LinearizeOptions {
   /** Disturbance inputs to differentiate with respect to (default none). */
   disturbances?: readonly DisturbanceName[];
-  /** Refuse when the equilibrium residual exceeds this (default 1e-6). */
+  /** Refuse when the equilibrium residual exceeds this (default 1e-4: the state is within 0.01 % of its scale of an equilibrium). */
   maxResidual?: number;
-  /** Smaller relative step (default 1e-6); the check step is 100× larger. */
+  /** Relative step of the result (default 1e-6). */
   stepRel?: number;
+  /** Relative step of the check (default 1e-4). */
+  checkStepRel?: number;
 }
 
 /** Relative discrepancy above which the linearization carries a warning. */
@@ -75,9 +77,9 @@ const STATE_NAMES = { buck: ['iL', 'vC'], halfBridge: ['i', 'vLink'] } as const;
  */
 export function linearizeAveraged(plant: Plant, x0: ArrayLike<number>, u0: Readonly<AvgInputs>, opts: LinearizeOptions = {}): LinearPlant {
   const dist = opts.disturbances ?? [];
-  const maxResidual = opts.maxResidual ?? 1e-6;
+  const maxResidual = opts.maxResidual ?? 1e-4;
   const hRel = opts.stepRel ?? 1e-6;
-  const hRelCheck = 100 * hRel;
+  const hRelCheck = opts.checkStepRel ?? 1e-4;
   const nFull = 2;
   for (let i = 0; i < nFull; i++) if (!Number.isFinite(x0[i])) throw new LinearizationError(`linearize: state ${i} must be finite, got ${x0[i]}`);
   if (!(u0.duty > 0 && u0.duty < 1)) throw new LinearizationError(`linearize: duty must be inside (0, 1), got ${u0.duty}`);

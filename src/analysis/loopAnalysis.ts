@@ -37,14 +37,10 @@ export interface AnalyzeOptions {
   readonly keepSamples?: boolean;
 }
 
-function hasIntegrator(loop: DiscreteLoop): boolean {
-  return Math.abs(loop.b0 + loop.b1) > 1e-12 * Math.max(Math.abs(loop.b0), Math.abs(loop.b1));
-}
-
 /** Lowest frequency: low enough that an integrator dominates (|L| > 10) before the plant acts. */
 function omegaMinOf(loop: DiscreteLoop, fraction: number): number {
   let w = fraction * loop.omegaNyquistRadS;
-  if (!hasIntegrator(loop)) return w;
+  if (!loop.integrator) return w;
   for (let i = 0; i < 12; i++) {
     const v = loopGainAt(loop, w);
     if (Math.hypot(v.re, v.im) > 10) break;
@@ -70,7 +66,7 @@ export function analyzeLoop(loop: DiscreteLoop, opts: AnalyzeOptions = {}): Loop
   const warnings: string[] = [];
   const nS = s.argOnePlusDeg.length;
   const half = s.argOnePlusDeg[nS - 1] - s.argOnePlusDeg[0];
-  const windingRaw = (2 * half - (hasIntegrator(loop) ? 180 : 0)) / 360;
+  const windingRaw = (2 * half - (loop.integrator ? 180 : 0)) / 360;
   const winding = Math.round(windingRaw);
   const nyquistUnstable = open.outside - winding;
   const stable = poles.maxAbs < 1;

@@ -42,6 +42,11 @@ export interface DiscreteLoop {
   /** Filter coefficient a (1 when there is no filter: F = 1). */
   readonly filterA: number;
   readonly hasFilter: boolean;
+  /**
+   * The PI integrates (b0 + b1 ≠ 0). Without integral action C(z) = b0 exactly: the velocity form's
+   * stored offset is then a constant, not a dynamic mode, and is left out of the closed loop.
+   */
+  readonly integrator: boolean;
   readonly ad: Float64Array;
   readonly bd: Float64Array;
   readonly c: Float64Array;
@@ -92,6 +97,7 @@ export function discreteLoop(lin: LinearPlant, spec: LoopSpec): DiscreteLoop {
     b1: pi.b1,
     filterA: hasFilter ? sensorFilterCoefficient(spec.sensorFilterHz!, tsS) : 1,
     hasFilter,
+    integrator: Math.abs(pi.b0 + pi.b1) > 1e-12 * Math.max(Math.abs(pi.b0), Math.abs(pi.b1)),
     ad: z.ad,
     bd: z.bd,
     c: lin.c,

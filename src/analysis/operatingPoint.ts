@@ -74,6 +74,17 @@ export function thermalInputsOf(plant: Plant, ep: ElectricalPoint, cond: PointCo
 const TOL_K = 1e-7;
 const MAX_IT = 200;
 
+/** Coolant heat with no loss at all, per network and conditions (sweeps ask for it at every point). */
+const baselineMemo = new WeakMap<ThermalNetwork, PointConditions & { qCoolW: number }>();
+function baselineCoolantW(net: ThermalNetwork, c: PointConditions): number {
+  const m = baselineMemo.get(net);
+  if (m && m.inletC === c.inletC && m.flowKgPerS === c.flowKgPerS && m.ambientC === c.ambientC) return m.qCoolW;
+  const baseline = thermalSteadyState(net, { deviceLossW: [0, 0], sinkExtraW: 0, inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC });
+  const qCoolW = heatToCoolantW(net, baseline, c.inletC, c.flowKgPerS);
+  baselineMemo.set(net, { inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC, qCoolW });
+  return qCoolW;
+}
+
 export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?: Partial<PointConditions>): OperatingPoint {
   const { scenario, plant, net } = ctx;
   const k: Knobs = { ...plant.knobs, ...knobs };
@@ -86,7 +97,8 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
   let tjH = c.inletC;
   let tjL = c.inletC;
   let ep = electricalPoint(plant, k, tjH, tjL);
-  let temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c));
+  const tIn = thermalInputsOf(plant, ep, c);
+  let temps = thermalSteadyState(net, tIn);
   let status: OperatingPoint['status'] = 'ok';
   let it = 0;
   // Relaxation only halves when the update changes sign (negative loop gain, e.g. below the
@@ -112,15 +124,14 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
         break;
       }
     } else hotClimbs = 0;
-    ep = electricalPoint(plant, k, tjH, tjL);
-    temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c));
+    ep = electricalPoint(plant, k, tjH, tjL, ep.regulated ? ep.duty : undefined);
+    temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c, tIn));
   }
   if (it >= MAX_IT && status === 'ok') status = 'unconverged';
   const qCool = heatToCoolantW(net, temps, c.inletC, c.flowKgPerS);
   // The converter's own share: the network is linear, so subtract what the coolant would pick
   // up from ambient with no loss at all (a cold inlet also draws heat from a warmer room).
-  const baseline = thermalSteadyState(net, { deviceLossW: [0, 0], sinkExtraW: 0, inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC });
-  const qCool0 = heatToCoolantW(net, baseline, c.inletC, c.flowKgPerS);
+  const qCool0 = baselineCoolantW(net, c);
   const qAmb = heatToAmbientW(net, temps, c.ambientC);
   const lim = scenario.limits;
   const cautions = [...electricalCautions(plant, ep, tjH, tjL, lim), ...thermalCautions(plant, tjH, tjL, lim)];

@@ -68,29 +68,56 @@ function legAt(plant: Plant, k: Knobs, vBus: number, iMean: number, vFar: number
 /**
  * Solve g(D) = 0 for g increasing in D on [lo, hi]: secant steps safeguarded by bisection.
  * Returns NaN-free D; `ok` false when the root lies outside (then D is the violated bound).
+ * Contract relied on by the callers: the last call of `g` is at the returned D, so whatever g
+ * writes as a side effect (the leg evaluation) describes the returned point.
  */
 export function solveIncreasing(g: (d: number) => number, lo: number, hi: number, guess: number, tolV: number): { d: number; ok: boolean; g: number } {
+  // The bounds are evaluated only when needed (a step leaves the bracket, or the iteration ends
+  // unconverged): with the root inside, the secant path is the same as with them evaluated first,
+  // and two leg evaluations per solve are saved. A bound evaluated that shows the root outside
+  // returns that bound, as an up-front check would have.
   let a = lo;
   let b = hi;
-  let ga = g(a);
-  if (ga >= 0) return { d: a, ok: ga <= tolV, g: ga };
-  let gb = g(b);
-  if (gb <= 0) return { d: b, ok: gb >= -tolV, g: gb };
+  let ga = NaN;
+  let gb = NaN;
+  let aKnown = false;
+  let bKnown = false;
   let x0 = Math.min(Math.max(guess, a), b);
   let g0 = g(x0);
   let x1 = x0 + 1e-4 * (g0 > 0 ? -1 : 1);
   x1 = Math.min(Math.max(x1, a), b);
   let g1 = g(x1);
   for (let it = 0; it < 100; it++) {
-    if (g1 > 0) { b = x1; gb = g1; } else { a = x1; ga = g1; }
+    if (g1 > 0) { b = x1; gb = g1; bKnown = true; } else { a = x1; ga = g1; aKnown = true; }
     if (Math.abs(g1) <= tolV) return { d: x1, ok: true, g: g1 };
     let x2 = g1 !== g0 ? x1 - (g1 * (x1 - x0)) / (g1 - g0) : 0.5 * (a + b);
-    if (!(x2 > a && x2 < b)) x2 = a + (ga / (ga - gb)) * (b - a);
+    if (!(x2 > a && x2 < b)) {
+      if (!aKnown) {
+        ga = g(a);
+        aKnown = true;
+        if (ga >= 0) return { d: a, ok: ga <= tolV, g: ga };
+      }
+      if (!bKnown) {
+        gb = g(b);
+        bKnown = true;
+        if (gb <= 0) return { d: b, ok: gb >= -tolV, g: gb };
+      }
+      x2 = a + (ga / (ga - gb)) * (b - a);
+    }
     if (!(x2 > a && x2 < b)) x2 = 0.5 * (a + b);
     x0 = x1; g0 = g1;
     x1 = x2; g1 = g(x2);
     if (b - a < 1e-15) break;
   }
+  if (!aKnown) {
+    const gLo = g(lo);
+    if (gLo >= 0) return { d: lo, ok: gLo <= tolV, g: gLo };
+  }
+  if (!bKnown) {
+    const gHi = g(hi);
+    if (gHi <= 0) return { d: hi, ok: gHi >= -tolV, g: gHi };
+  }
+  if (!aKnown || !bKnown) g1 = g(x1); // restore the side effect at the returned point
   return { d: x1, ok: Math.abs(g1) <= tolV * 1e3, g: g1 };
 }
 
@@ -103,30 +130,48 @@ function snapshot(r: LegResult): LegResult {
   return { ...r, hs: { ...r.hs }, ls: { ...r.ls } };
 }
 
+/** Scratch for the duty solve; every returned point holds its own snapshot. */
+const buckScratch = newLegResult();
+
+function loadCurrentA(b: BuckParams, vo: number): number {
+  return 'rOhm' in b.load ? vo / b.load.rOhm : b.load.iA;
+}
+
+/** State of the buck duty solve, read by `buckDutyResidual` (no closure per call on the hot path). */
+const buckSolve = { plant: null as Plant | null, k: null as Knobs | null, vin: 0, io: 0, vFar: 0, lH: 1, tjH: 25, tjL: 25 };
+
+/** Node average minus the far-end voltage at duty d: zero when the output is regulated. */
+function buckDutyResidual(d: number): number {
+  const st = buckSolve;
+  return legAt(st.plant as Plant, st.k as Knobs, st.vin, st.io, st.vFar, st.lH, d, st.tjH, st.tjL, buckScratch).vNodeMeanV - st.vFar;
+}
+
 /** Buck, load from the plant unless `loadOverride` gives the load resistance or current. */
-export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number): ElectricalPoint {
+export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number, dutyGuess?: number): ElectricalPoint {
   const b = plant.conv as BuckParams;
   const vin = vinOverrideV ?? b.vinV;
   const rL = dcrOhm(b.dcr20Ohm, b.inductorTempC);
-  const leg = newLegResult();
-  const ioAt = (vo: number): number => ('rOhm' in b.load ? vo / b.load.rOhm : b.load.iA);
+  const leg = buckScratch;
   let vo = b.voutRefV;
-  let io = ioAt(vo);
-  const g = (d: number): number => legAt(plant, k, vin, io, vo + io * rL, b.lH, d, tjH, tjL, leg).vNodeMeanV - (vo + io * rL);
-  const sol = solveIncreasing(g, plant.dutyMin, plant.dutyMax, (vo + io * rL) / vin, 1e-12 * vin);
+  let io = loadCurrentA(b, vo);
+  const st = buckSolve;
+  st.plant = plant; st.k = k; st.vin = vin; st.io = io; st.vFar = vo + io * rL; st.lH = b.lH; st.tjH = tjH; st.tjL = tjL;
+  const sol = solveIncreasing(buckDutyResidual, plant.dutyMin, plant.dutyMax, dutyGuess ?? (vo + io * rL) / vin, 1e-12 * vin);
+  st.plant = st.k = null;
   let duty = sol.d;
   let regulated = sol.ok;
   if (!regulated) {
     // Duty pinned at a limit: the output settles where the node average meets the branch drop.
     const h = (v: number): number => {
-      const i = ioAt(v);
+      const i = loadCurrentA(b, v);
       return v + i * rL - legAt(plant, k, vin, i, v + i * rL, b.lH, duty, tjH, tjL, leg).vNodeMeanV;
     };
     const s2 = solveIncreasing(h, 0, vin, vo, 1e-12 * vin);
     vo = s2.d;
-    io = ioAt(vo);
+    io = loadCurrentA(b, vo);
+    legAt(plant, k, vin, io, vo + io * rL, b.lH, duty, tjH, tjL, leg);
   }
-  legAt(plant, k, vin, io, vo + io * rL, b.lH, duty, tjH, tjL, leg);
+  // Regulated: solveIncreasing evaluated g last at the returned duty, so `leg` holds that point.
   return finishBuck(plant, b, k, vin, vo, io, rL, duty, regulated, leg);
 }
 
@@ -186,7 +231,7 @@ export function halfBridgeElectrical(plant: Plant, k: Knobs, tjH: number, tjL: n
       const g = (d: number): number => legAt(plant, k, vLink, i, vFar, h.loadLH, d, tjH, tjL, leg).vNodeMeanV - vFar;
       const sol = solveIncreasing(g, plant.dutyMin, plant.dutyMax, vFar / vLink, 1e-12 * vLink);
       regulated &&= sol.ok;
-      legAt(plant, k, vLink, i, vFar, h.loadLH, sol.d, tjH, tjL, leg);
+      // solveIncreasing evaluated g last at sol.d: `leg` holds that point.
       dutySum += sol.d;
       for (const key of Object.keys(leg.hs) as (keyof typeof leg.hs)[]) { acc.hs[key] += leg.hs[key] / nPh; acc.ls[key] += leg.ls[key] / nPh; }
       acc.gateDriverW += leg.gateDriverW / nPh;
@@ -233,6 +278,6 @@ export function halfBridgeElectrical(plant: Plant, k: Knobs, tjH: number, tjL: n
   };
 }
 
-export function electricalPoint(plant: Plant, k: Knobs, tjH: number, tjL: number): ElectricalPoint {
-  return plant.conv.kind === 'buck' ? buckElectrical(plant, k, tjH, tjL) : halfBridgeElectrical(plant, k, tjH, tjL);
+export function electricalPoint(plant: Plant, k: Knobs, tjH: number, tjL: number, dutyGuess?: number): ElectricalPoint {
+  return plant.conv.kind === 'buck' ? buckElectrical(plant, k, tjH, tjL, undefined, dutyGuess) : halfBridgeElectrical(plant, k, tjH, tjL);
 }

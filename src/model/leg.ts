@@ -177,6 +177,26 @@ const tLs: SwitchTiming = newSwitchTiming();
 /** Incoming device's timing at the current it actually switches on (the edge current). */
 const tOnEdge: SwitchTiming = newSwitchTiming();
 
+/**
+ * Timing at the mean current, remembered per side: a duty solve evaluates the leg several times
+ * at the same current, temperature and drive, and only the duty changes between calls.
+ */
+interface TimingMemo {
+  dev: DeviceParams | null; gate: GateDriveParams | null; vDriveV: number; vBusV: number; iA: number; tjC: number; t: SwitchTiming;
+}
+const memoHs: TimingMemo = { dev: null, gate: null, vDriveV: NaN, vBusV: NaN, iA: NaN, tjC: NaN, t: newSwitchTiming() };
+const memoLs: TimingMemo = { dev: null, gate: null, vDriveV: NaN, vBusV: NaN, iA: NaN, tjC: NaN, t: newSwitchTiming() };
+
+function timingAtMean(m: TimingMemo, dev: DeviceParams, gate: GateDriveParams, vDriveV: number, vBusV: number, iA: number, tjC: number, out: SwitchTiming): void {
+  if (m.dev !== dev || m.gate !== gate || m.vDriveV !== vDriveV || m.vBusV !== vBusV || m.iA !== iA || m.tjC !== tjC) {
+    switchTiming(dev, gate, vDriveV, vBusV, iA, tjC, m.t);
+    m.dev = dev; m.gate = gate; m.vDriveV = vDriveV; m.vBusV = vBusV; m.iA = iA; m.tjC = tjC;
+  }
+  const t = m.t;
+  out.plateauV = t.plateauV; out.canTurnOn = t.canTurnOn; out.tdOnS = t.tdOnS; out.tRiseCurrentS = t.tRiseCurrentS;
+  out.tFallVoltageS = t.tFallVoltageS; out.tdOffS = t.tdOffS; out.tRiseVoltageS = t.tRiseVoltageS; out.tFallCurrentS = t.tFallCurrentS;
+}
+
 /** Per-edge outcome, in energies (J) and node volt-seconds during the gap. */
 interface Edge {
   areaVs: number; diodeS: number; eOnJ: number; eOffJ: number; eCossJ: number; eRrJ: number; eDiodeJ: number;
@@ -282,8 +302,13 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
   for (let pass = 0; pass < 2; pass++) {
     const iEndHigh = iM + 0.5 * delta;
     const iEndLow = iM - 0.5 * delta;
-    switchTiming(p.hs, p.gate, vg, vBus, Math.abs(pass === 0 ? iM : iEndHigh), tjH, tHs);
-    switchTiming(p.ls, p.gate, vg, vBus, Math.abs(pass === 0 ? iM : iEndLow), tjL, tLs);
+    if (pass === 0) {
+      timingAtMean(memoHs, p.hs, p.gate, vg, vBus, Math.abs(iM), tjH, tHs);
+      timingAtMean(memoLs, p.ls, p.gate, vg, vBus, Math.abs(iM), tjL, tLs);
+    } else {
+      switchTiming(p.hs, p.gate, vg, vBus, Math.abs(iEndHigh), tjH, tHs);
+      switchTiming(p.ls, p.gate, vg, vBus, Math.abs(iEndLow), tjL, tLs);
+    }
     if (diodeMode) {
       gapRise = 0;
       gapFall = 0;

@@ -7,6 +7,7 @@
 import { createSupervisor } from '../control/supervisor.ts';
 import type { Scenario } from '../scenario/parse.ts';
 import { type LiveInput, type SimRecord, type SupervisorTask, Simulation, simulate, type SimResult } from '../sim/engine.ts';
+import { supervisorFor } from '../sim/supervisorHook.ts';
 import { type SimSystem, buildSystem } from '../sim/system.ts';
 
 export interface LiveRun {
@@ -21,10 +22,21 @@ export const LIVE_INPUTS: readonly LiveInput[] = [
   'fswHz', 'deadTimeS', 'vDriveV', 'controlKp', 'controlKi', 'supervisorOn',
 ];
 
-/** System and supervisor for a scenario, as the replay (`run`) builds them. */
+/**
+ * System and supervisor for a scenario. Runs get their supervisor from `supervisorFor` (the one
+ * place that decides it, shared with `lossdial run`); while that hook wires none, a scenario with
+ * an enabled supervisor section gets the plain heat supervisor here, so the live bench can still
+ * track a demand. `supervisorWiredForRun` tells whether `lossdial run` builds the same thing.
+ */
 export function runParts(scenario: Scenario): { sys: SimSystem; supervisor: SupervisorTask | undefined } {
   const sys = buildSystem(scenario);
-  return { sys, supervisor: createSupervisor(sys) };
+  return { sys, supervisor: supervisorFor(sys) ?? createSupervisor(sys) };
+}
+
+/** True when `lossdial run` drives this scenario with the same supervisor as a live session. */
+export function supervisorWiredForRun(scenario: Scenario): boolean {
+  const sys = buildSystem(scenario);
+  return supervisorFor(sys) !== undefined || createSupervisor(sys) === undefined;
 }
 
 export function createLiveRun(scenario: Scenario, onRecord: (r: SimRecord) => void): LiveRun {

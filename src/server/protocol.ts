@@ -222,6 +222,7 @@ export const serverSchemas = {
         .strict(),
       recordIntervalS: z.number(),
       tjLimitC: z.number(),
+      pmFloorDeg: z.number(),
     })
     .strict(),
   frame: z

@@ -13,6 +13,7 @@
  */
 import { HARDWARE_NOTICE } from '../analysis/cautions.ts';
 import { toCsv } from '../io/csv.ts';
+import { traceColumns, traceRows } from '../sim/runOutput.ts';
 import { ScenarioError } from '../scenario/errors.ts';
 import { type Scenario, parseScenario } from '../scenario/parse.ts';
 import type { SimRecord } from '../sim/engine.ts';
@@ -209,6 +210,7 @@ export class Session {
       ranges: { fswHz: fswRange, deadTimeS: dtRange, vDriveV: vgRange, heatDemandW: [0, this.demandMaxW()] },
       recordIntervalS: sc.sim.recordIntervalS,
       tjLimitC: Math.min(plant.leg.hs.tjMaxC, plant.leg.ls.tjMaxC) - sc.limits.tjMarginK,
+      pmFloorDeg: sup?.pmFloorDeg ?? 45,
     };
   }
 
@@ -626,7 +628,7 @@ export class Session {
       liveSteps: liveStepsOf(sim),
       baseAt0: baseValuesAt0(this.run.sys),
       durationS: sim.t,
-      note: `${this.trace.length} records; ${HARDWARE_NOTICE}`,
+      note: `${this.trace.length} records`,
     });
     return { text: out.text, fileName: `${this.scenario.name}-session.yaml`, inexact: out.inexact };
   }
@@ -637,6 +639,9 @@ export class Session {
   }
 
   traceCsv(): { text: string; fileName: string } {
-    return { text: toCsv(this.trace), fileName: `${this.scenario.name}-session-trace.csv` };
+    // The same columns and formatting as `lossdial run` writes to trace.csv, so the files compare.
+    const sys = this.run.sys;
+    const cols = traceColumns(sys, this.trace).map((c) => c[0]);
+    return { text: toCsv(traceRows(sys, this.trace), cols), fileName: `${this.scenario.name}-session-trace.csv` };
   }
 }

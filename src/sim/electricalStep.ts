@@ -77,6 +77,21 @@ export class OdexStepper {
   }
 }
 
+/** Power vector of the local model: the ENERGY entries, then the output and input capacitor ripple mean squares. */
+export const POWER_N = ENERGY.n + 2;
+
+function powersOf(o: AvgOutputs, leg: LegResult, out: Float64Array, base: number): void {
+  out[base + ENERGY.pin] = o.pinW;
+  out[base + ENERGY.pout] = o.poutW;
+  out[base + ENERGY.hs] = leg.hs.totalW;
+  out[base + ENERGY.ls] = leg.ls.totalW;
+  out[base + ENERGY.passive] = o.passiveW;
+  out[base + ENERGY.gateDriver] = o.gateDriverW;
+  out[base + ENERGY.store] = o.pStoreW;
+  out[base + ENERGY.n] = o.capOutRmsA * o.capOutRmsA;
+  out[base + ENERGY.n + 1] = o.capInRmsA * o.capInRmsA;
+}
+
 /** Relative tolerance within which two interval lengths share one discretization (float time grid jitter). */
 const DT_MATCH_REL = 1e-9;
 
@@ -106,6 +121,9 @@ export class ZohStepper {
   private readonly slotGb = [new Float64Array(2), new Float64Array(2)];
   private readonly slotGw = [new Float64Array(2), new Float64Array(2)];
   private readonly scale = new Float64Array(2);
+  /** Powers at the point (POWER_N) and their gradients along x0, x1 and the duty: rows of POWER_N. */
+  private readonly pw = new Float64Array(4 * POWER_N);
+  private readonly outsP = newAvgOutputs();
   linearizations = 0;
   discretizations = 0;
   /** Outputs and leg at the linearization point (powers used between evaluations). */
@@ -152,14 +170,23 @@ export class ZohStepper {
       const h = j === 0 ? h0 : h1;
       xp[0] = x[0]; xp[1] = x[1];
       xp[j] += h;
-      averagedDerivatives(p, xp, uu, this.fp, this.leg);
+      averagedDerivatives(p, xp, uu, this.fp, this.leg, this.outsP);
       a[j] = (this.fp[0] - this.f0[0]) / h;
       a[2 + j] = (this.fp[1] - this.f0[1]) / h;
+      powersOf(this.outsP, this.leg, this.pw, (1 + j) * POWER_N);
     }
     const hd = 1e-6;
     uu.duty = u.duty + hd;
-    averagedDerivatives(p, x, uu, this.fp, this.leg);
+    averagedDerivatives(p, x, uu, this.fp, this.leg, this.outsP);
+    powersOf(this.outsP, this.leg, this.pw, 3 * POWER_N);
     uu.duty = u.duty;
+    const pw = this.pw;
+    powersOf(this.pointOuts, lg, pw, 0);
+    for (let k = 0; k < POWER_N; k++) {
+      pw[POWER_N + k] = (pw[POWER_N + k] - pw[k]) / h0;
+      pw[2 * POWER_N + k] = (pw[2 * POWER_N + k] - pw[k]) / h1;
+      pw[3 * POWER_N + k] = (pw[3 * POWER_N + k] - pw[k]) / hd;
+    }
     const b0 = (this.fp[0] - this.f0[0]) / hd;
     const b1 = (this.fp[1] - this.f0[1]) / hd;
     // Affine term w so that f ≈ A·x + b·d + w reproduces f0 at (x, d).
@@ -186,6 +213,18 @@ export class ZohStepper {
     this.slotGb[s][1] = z.bd[2]; this.slotGw[s][1] = z.bd[3];
     this.slotDt[s] = dtS;
     return s;
+  }
+
+  /**
+   * Powers of the local model at state (x0, x1) and duty d, first order about the point: used
+   * with the interval's mid-point state, the energy of a ZOH step is second-order accurate.
+   */
+  powersAt(x0: number, x1: number, duty: number, out: Float64Array): void {
+    const pw = this.pw;
+    const d0 = x0 - this.x0[0];
+    const d1 = x1 - this.x0[1];
+    const dd = duty - this.d0;
+    for (let k = 0; k < POWER_N; k++) out[k] = pw[k] + pw[POWER_N + k] * d0 + pw[2 * POWER_N + k] * d1 + pw[3 * POWER_N + k] * dd;
   }
 
   /** One held-duty step of length dtS with the current local model (call `linearize` first). */

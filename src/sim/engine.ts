@@ -159,6 +159,8 @@ export interface SimResult {
   };
   /** Per-device extremes and first crossings for cautions. */
   extremes: RunExtremes;
+  /** Electrical states [x0, x1] at t = 0 (the starting equilibrium) and at tEndS, for checks. */
+  initialX: number[];
   /** Final states for checks: electrical [x0, x1] and thermal node temperatures. */
   finalX: number[];
   finalTempsC: number[];
@@ -246,6 +248,7 @@ export class Simulation {
   private readonly jH: number;
   private readonly jL: number;
   private readonly x = new Float64Array(2);
+  private readonly initialX: number[];
   private readonly piCfg: { -readonly [K in keyof PiConfig]: PiConfig[K] };
   private ts: number;
   private coeffs: { b0: number; b1: number };
@@ -286,6 +289,7 @@ export class Simulation {
   private recCapInMs = 0;
   private recYDev = 0;
   private lastCmd = NaN;
+  private lastPiX = NaN;
   private holds = 0;
   private thermalSteps = 0;
   private thLast: ThermalDiscrete | undefined;
@@ -297,6 +301,7 @@ export class Simulation {
   private readonly hpH = new Float64Array(HP_N);
   private readonly hpL = new Float64Array(HP_N);
   private readonly hpNow = new Float64Array(HP_N);
+  private readonly zohPowers = new Float64Array(HP_N);
   private readonly hLeg = newLegResult();
   private readonly hOuts = newAvgOutputs();
   private readonly uH: AvgInputs;
@@ -360,6 +365,7 @@ export class Simulation {
     this.x[0] = ep0.iMeanA;
     this.x[1] = plant.conv.kind === 'buck' ? ep0.vOutV : ep0.vBusV;
     this.u.duty = ep0.duty;
+    this.initialX = [this.x[0], this.x[1]];
     this.piCfg = { ...sys.pi, kp: prof.controlKp.valueAt(0), ki: prof.controlKi.valueAt(0) };
     this.ts = samplePeriodS(sys, this.knobs.fswHz);
     this.coeffs = piCoefficients(this.piCfg, this.ts);
@@ -563,8 +569,16 @@ export class Simulation {
           return this.advance(dt);
         }
       }
+      const xa = x[0];
+      const xb = x[1];
       zoh.step(x, u.duty, dt);
-      addEnergies(this.accStep, this.curOuts, this.curLeg, dt);
+      // Powers of the local model at the interval's mid-point state: second-order accurate energies.
+      const p = this.zohPowers;
+      zoh.powersAt(0.5 * (xa + x[0]), 0.5 * (xb + x[1]), u.duty, p);
+      for (let k = 0; k < E_N; k++) this.accStep[k] = p[k] * dt;
+      if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
+      this.accumulate(dt, 0.5 * (y0 + measured(this.sys, x, u)), Math.max(p[HP_CAP_OUT], 0), Math.max(p[HP_CAP_IN], 0));
+      return true;
     }
     if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
     // Trapezoid on the regulated quantity: the records follow the state, not the last leg evaluation.
@@ -763,12 +777,16 @@ export class Simulation {
         if (dev > this.maxDevDuringMoves) this.maxDevDuringMoves = dev;
         if (dev > REGULATION_BAND * Math.abs(ref)) this.moveLastOutS = t;
       }
-      // Settled: no motion, and either no error or a controller output that no longer moves
-      // (duty pinned at a limit, or an open loop), for several samples in a row.
-      const still = Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y)) && (dev < 1e-6 * (1 + Math.abs(ref)) || cmd === this.lastCmd);
+      // Settled: no motion, and either no error or a controller that no longer moves at all —
+      // output and stored state (duty pinned with the integrator clamped, or an open loop) — for
+      // several samples in a row. A winding integrator behind a pinned output is not settled.
+      const piX = this.pi.x;
+      const frozen = cmd === this.lastCmd && Math.abs(piX - this.lastPiX) <= 1e-12 * (1 + Math.abs(piX));
+      const still = Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y)) && (dev < 1e-6 * (1 + Math.abs(ref)) || frozen);
       this.settled = still ? this.settled + 1 : 0;
       this.lastE = e;
       this.lastCmd = cmd;
+      this.lastPiX = piX;
       if (this.mode === 'auto' && this.useOdex && this.samples % 64 === 0) {
         this.zoh.linearize(x, u);
         this.useOdex = this.zoh.nonlinear;
@@ -874,6 +892,7 @@ export class Simulation {
         maxDevDuringMoves: this.maxDevDuringMoves, moveSettleS: [...this.moveSettleS],
       },
       extremes: ex,
+      initialX: [...this.initialX],
       finalX: [this.x[0], this.x[1]],
       finalTempsC: [...this.temps],
     };

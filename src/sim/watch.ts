@@ -33,6 +33,9 @@ export interface RunExtremes {
   saturationDriveV: number;
   cannotTurnOnAtS: number;
   cannotTurnOnDriveV: number;
+  /** Largest inductor edge current |peak| or |valley| seen at a leg evaluation, and when. */
+  iEdgeMaxA: number;
+  iEdgeMaxAtS: number;
   /** Highest RMS ripple current over a record interval. */
   capOutRmsMaxA: number;
   capInRmsMaxA: number;
@@ -63,6 +66,8 @@ export class RunWatch {
     saturationDriveV: NaN,
     cannotTurnOnAtS: NaN,
     cannotTurnOnDriveV: NaN,
+    iEdgeMaxA: 0,
+    iEdgeMaxAtS: NaN,
     capOutRmsMaxA: 0,
     capInRmsMaxA: 0,
     minOverdriveV: [Infinity, Infinity],
@@ -86,6 +91,10 @@ export class RunWatch {
       r.overlapS = Math.max(r.overlapS, lg.overlapS);
     }
     const iEdge = Math.max(Math.abs(lg.iPeakA), Math.abs(lg.iValleyA));
+    if (iEdge > r.iEdgeMaxA) {
+      r.iEdgeMaxA = iEdge;
+      r.iEdgeMaxAtS = tS;
+    }
     if ((lg.hsSaturated || lg.lsSaturated) && Number.isNaN(r.saturationAtS)) {
       r.saturationAtS = tS;
       r.saturatedSide = lg.hsSaturated ? 'high' : 'low';

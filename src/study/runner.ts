@@ -25,7 +25,7 @@ import type { Shard } from './shard.ts';
 import type { StudySpec } from './spec.ts';
 import { parseStudySpecObject } from './spec.ts';
 import { parseScenarioObject } from '../scenario/parse.ts';
-import { ScenarioError } from '../scenario/errors.ts';
+import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
 import { type StudyContext, preflight, studyContext } from './variant.ts';
 import type { StudyWorkerData } from './worker.ts';
 
@@ -91,11 +91,17 @@ export function prepareStudy(spec: StudySpec, base: Scenario): StudyContext {
   if (spec.kind === 'margins' && !MARGINS_AVAILABLE)
     throw new ScenarioError([{ path: 'kind', message: 'margins studies need the margin analysis, which this build does not have yet; use point or run' }]);
   const ctx = studyContext(spec, base);
-  preflight(ctx);
+  const problems: ScenarioProblem[] = [];
+  try {
+    preflight(ctx);
+  } catch (e) {
+    if (!(e instanceof ScenarioError)) throw e;
+    problems.push(...e.problems);
+  }
   const known = RESULT_FIELDS[spec.kind];
-  const problems = (spec.outputs ?? []).flatMap((o, i) =>
-    known && !known.includes(o) ? [{ path: `outputs[${i}]`, message: `unknown result field ${JSON.stringify(o)} for kind ${spec.kind}; known: ${known.join(', ')}` }] : [],
-  );
+  (spec.outputs ?? []).forEach((o, i) => {
+    if (known && !known.includes(o)) problems.push({ path: `outputs[${i}]`, message: `unknown result field ${JSON.stringify(o)} for kind ${spec.kind}; known: ${known.join(', ')}` });
+  });
   if (problems.length > 0) throw new ScenarioError(problems);
   return ctx;
 }
@@ -166,8 +172,10 @@ export interface RunStudyResult {
   droppedPartialLine: boolean;
   interrupted: boolean;
   elapsedS: number;
-  /** Samples per second over the computing part of this run (pool start excluded). */
+  /** Samples per second from dispatch to the last sample (worker start-up included). */
   samplesPerS: number;
+  /** Samples per second between the first and the last finished batch (start-up excluded). */
+  steadySamplesPerS: number;
   complete: boolean;
   counts: Record<string, number>;
   summary?: StudySummary;
@@ -221,11 +229,8 @@ export async function runStudy(opts: RunStudyOptions): Promise<RunStudyResult> {
   const resumed = mine.length - todo.length;
   let computed = 0;
   let interrupted = false;
-  let tCompute0 = performance.now();
-  let tCompute1 = tCompute0;
-  if (todo.length > 0) {
-    ({ computed, interrupted, tCompute0, tCompute1 } = await computeSamples(opts, resultsPath, todo, resumed, mine.length));
-  }
+  let timing = { t0: 0, t1: 0, tFirst: 0, firstCount: 0 };
+  if (todo.length > 0) ({ computed, interrupted, timing } = await computeSamples(opts, resultsPath, todo, resumed, mine.length));
   const complete = !interrupted && computed === todo.length;
   const result: RunStudyResult = {
     shardTotal: mine.length,
@@ -234,7 +239,8 @@ export async function runStudy(opts: RunStudyOptions): Promise<RunStudyResult> {
     droppedPartialLine: read.partial !== undefined,
     interrupted,
     elapsedS: (performance.now() - t0) / 1000,
-    samplesPerS: computed > 0 && tCompute1 > tCompute0 ? computed / ((tCompute1 - tCompute0) / 1000) : 0,
+    samplesPerS: computed > 0 && timing.t1 > timing.t0 ? computed / ((timing.t1 - timing.t0) / 1000) : 0,
+    steadySamplesPerS: timing.t1 > timing.tFirst && computed > timing.firstCount ? (computed - timing.firstCount) / ((timing.t1 - timing.tFirst) / 1000) : 0,
     complete,
     counts: {},
   };
@@ -256,7 +262,7 @@ async function computeSamples(
   todo: readonly number[],
   resumed: number,
   shardTotal: number,
-): Promise<{ computed: number; interrupted: boolean; tCompute0: number; tCompute1: number }> {
+): Promise<{ computed: number; interrupted: boolean; timing: { t0: number; t1: number; tFirst: number; firstCount: number } }> {
   const workers = Math.max(1, Math.floor(opts.workers));
   const batchSize = opts.batchSize ?? Math.min(16, Math.max(1, Math.ceil(todo.length / (workers * 32))));
   const batches: number[][] = [];
@@ -277,7 +283,10 @@ async function computeSamples(
   let interrupted = false;
   let failure: unknown;
   let writing: Promise<unknown> = Promise.resolve();
-  const tCompute0 = performance.now();
+  const t0 = performance.now();
+  let t1 = t0;
+  let tFirst = 0;
+  let firstCount = 0;
   opts.progress?.start(shardTotal, resumed);
   try {
     await new Promise<void>((resolve) => {
@@ -297,6 +306,10 @@ async function computeSamples(
               writing = writing.then(async () => {
                 await fh.write(text);
                 computed += batch.length;
+                if (tFirst === 0) {
+                  tFirst = performance.now();
+                  firstCount = computed;
+                }
                 opts.progress?.update(resumed + computed);
               });
               return writing;
@@ -325,14 +338,14 @@ async function computeSamples(
       pump();
     });
     await writing;
+    t1 = performance.now();
   } finally {
     opts.progress?.stop();
     await fh.close();
     await pool.destroy();
   }
-  const tCompute1 = performance.now();
   if (failure !== undefined) throw failure;
-  return { computed, interrupted, tCompute0, tCompute1 };
+  return { computed, interrupted, timing: { t0, t1, tFirst, firstCount } };
 }
 
 /** Read a finished or partial study directory for merging. */

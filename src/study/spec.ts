@@ -20,10 +20,15 @@ const finite = () => z.number().finite();
 const PATH_RE = /^[A-Za-z_$][\w$]*(\.[A-Za-z_$][\w$]*)*$/;
 const FORBIDDEN_KEYS = new Set(['__proto__', 'constructor', 'prototype']);
 
-const pathKey = z
-  .string()
-  .regex(PATH_RE, { message: 'must be a dotted field path such as pwm.fswHz' })
-  .refine((p) => !p.split('.').some((k) => FORBIDDEN_KEYS.has(k)), { message: 'not a valid field path' });
+/** Records keyed by scenario field paths; a bad key is reported at its own path. */
+function pathRecord<T extends z.ZodType>(value: T) {
+  return z.record(z.string(), value).superRefine((rec, ctx) => {
+    for (const key of Object.keys(rec)) {
+      if (!PATH_RE.test(key)) ctx.addIssue({ code: 'custom', path: [key], message: 'must be a dotted field path such as pwm.fswHz' });
+      else if (key.split('.').some((k) => FORBIDDEN_KEYS.has(k))) ctx.addIssue({ code: 'custom', path: [key], message: 'not a valid field path' });
+    }
+  });
+}
 
 const uniformSchema = z
   .object({ dist: z.literal('uniform'), min: finite(), max: finite() })
@@ -40,6 +45,8 @@ const axisRangeSchema = z
   .object({ from: finite(), to: finite(), steps: z.number().int().min(1).max(100_000), log: z.boolean().default(false) })
   .strict()
   .superRefine((a, ctx) => {
+    // Field-level problems are reported by their own checks; only the combination is checked here.
+    if (!Number.isInteger(a.steps) || a.steps < 1 || a.steps > 100_000) return;
     try {
       sweepValues(a.from, a.to, a.steps, a.log);
     } catch (e) {
@@ -78,12 +85,12 @@ export const studySpecSchema = z
     description: z.string().default(''),
     seed: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
     kind: z.enum(['point', 'margins', 'run']),
-    set: z.record(pathKey, z.unknown()).optional().describe('fixed overrides applied to every sample, as with --set'),
-    grid: z.record(pathKey, axisSchema).optional(),
+    set: pathRecord(z.unknown()).optional().describe('fixed overrides applied to every sample, as with --set'),
+    grid: pathRecord(axisSchema).optional(),
     random: z
       .object({
         samples: z.number().int().min(1).max(MAX_STUDY_SAMPLES),
-        params: z.record(pathKey, distributionSchema).default({}),
+        params: pathRecord(distributionSchema).default({}),
       })
       .strict()
       .optional(),

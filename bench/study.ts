@@ -1,0 +1,70 @@
+/** Near-linear on two cores: the main thread only appends lines while the workers compute. */
+const TARGET_SPEEDUP = 1.8;
+
+/**
+ * Study throughput: the same fixed study (device spread with reachable-heat search on the cabin
+ * warm-up buck) with 1 and then 2 worker threads. Prints samples/s for each (steady state,
+ * worker start-up excluded, and wall clock) and the speed-up ratio; never asserts.
+ */
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { parseScenario } from '../src/scenario/parse.ts';
+import { runStudy } from '../src/study/runner.ts';
+import { parseStudySpecObject } from '../src/study/spec.ts';
+import type { BenchResult } from './types.ts';
+
+const ROOT = new URL('..', import.meta.url);
+
+export const STUDY_BENCH_SPEC = {
+  name: 'bench-spread',
+  seed: 7,
+  kind: 'point',
+  random: { samples: 480 },
+  deviceSpread: {
+    at: 'ladderEnd',
+    vthShiftV: { dist: 'normal', mean: 0, sd: 0.35 },
+    rdsOnScale: { dist: 'lognormal', median: 1, sigmaLn: 0.08 },
+    gateChargeScale: { dist: 'lognormal', median: 1, sigmaLn: 0.1 },
+    rthJcScale: { dist: 'lognormal', median: 1, sigmaLn: 0.1 },
+    achievableHeat: true,
+  },
+};
+
+export async function benchStudy(): Promise<BenchResult> {
+  const scenario = parseScenario(readFileSync(new URL('cases/buck-cabin-warmup.yaml', ROOT), 'utf8'));
+  const spec = parseStudySpecObject(STUDY_BENCH_SPEC);
+  const tmp = mkdtempSync(join(tmpdir(), 'lossdial-bench-study-'));
+  const rates: Record<number, { steady: number; wall: number; elapsedS: number }> = {};
+  try {
+    for (const workers of [1, 2]) {
+      const r = await runStudy({ spec, scenario, outDir: join(tmp, `w${workers}`), workers });
+      rates[workers] = { steady: r.steadySamplesPerS, wall: r.samplesPerS, elapsedS: r.elapsedS };
+      console.log(
+        `study: ${spec.total} samples on ${workers} worker${workers === 1 ? ' ' : 's'}: ${r.steadySamplesPerS.toFixed(1)} samples/s steady, ${r.samplesPerS.toFixed(1)} samples/s wall (${r.elapsedS.toFixed(1)} s)`,
+      );
+    }
+  } finally {
+    rmSync(tmp, { recursive: true, force: true });
+  }
+  const ratio = rates[2].steady / rates[1].steady;
+  const wallRatio = rates[2].wall / rates[1].wall;
+  console.log(`study: speed-up 1 → 2 workers ${ratio.toFixed(2)}× steady (${wallRatio.toFixed(2)}× wall clock)`);
+  return {
+    id: 'study',
+    label: 'study speed-up 1 → 2 workers (steady samples/s ratio)',
+    value: ratio,
+    target: TARGET_SPEEDUP,
+    ratio: ratio / TARGET_SPEEDUP,
+    details: {
+      samples: spec.total,
+      samplesPerS1: rates[1].steady,
+      samplesPerS2: rates[2].steady,
+      wallSamplesPerS1: rates[1].wall,
+      wallSamplesPerS2: rates[2].wall,
+      wallSpeedup: wallRatio,
+      elapsedS1: rates[1].elapsedS,
+      elapsedS2: rates[2].elapsedS,
+    },
+  };
+}

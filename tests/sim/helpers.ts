@@ -1,0 +1,62 @@
+/**
+ * Shared helpers for the simulation tests: the demo cases with overrides, a run wrapper, and
+ * near-ideal device overrides. Plain data and thin wrappers; nothing here asserts.
+ */
+import { readFileSync } from 'node:fs';
+import { type Scenario, parseScenario, withOverrides } from '../../src/scenario/parse.ts';
+import { type SimOptions, type SimResult, simulate } from '../../src/sim/engine.ts';
+import { type SimSystem, buildSystem } from '../../src/sim/system.ts';
+
+export const BUCK_CASE = new URL('../../cases/buck-aux-48v.yaml', import.meta.url);
+export const LEG_CASE = new URL('../../cases/leg-standstill-400v.yaml', import.meta.url);
+
+export function buckScenario(patch: Record<string, unknown> = {}): Scenario {
+  return withOverrides(parseScenario(readFileSync(BUCK_CASE, 'utf8')), patch);
+}
+
+export function legScenario(patch: Record<string, unknown> = {}): Scenario {
+  return withOverrides(parseScenario(readFileSync(LEG_CASE, 'utf8')), patch);
+}
+
+export function run(sc: Scenario, opts: SimOptions = {}): { sys: SimSystem; res: SimResult } {
+  const sys = buildSystem(sc);
+  return { sys, res: simulate(sys, opts) };
+}
+
+/**
+ * Device overrides that make a part's non-idealities negligible at tens of volts and amperes
+ * (the same values as tests/model/fixtures.ts idealDevice): k = 10⁶ A/V², no series resistance,
+ * femto-scale capacitances and charges, a 1 mV diode, no temperature coefficients.
+ */
+export const NEAR_IDEAL_DEVICE = {
+  kAPerV2: 1e6,
+  vth25V: 2,
+  vthTempCoeffVPerK: 0,
+  rSeries25Ohm: 0,
+  rdsTempCoeffPerK: 0,
+  cissF: 1e-15,
+  qgdCoulomb: 1e-18,
+  qgdRefV: 1,
+  qgCoulomb: 1e-15,
+  qgRefV: 10,
+  rGateIntOhm: 0,
+  cossF: 1e-18,
+  diodeVf25V: 1e-3,
+  diodeROhm: 0,
+  diodeVfTempCoeffVPerK: 0,
+  qrr25Coulomb: 0,
+  qrrTempCoeffPerK: 0,
+} as const;
+
+/** Overrides that keep a part as it is but remove every temperature coefficient: losses then do not depend on Tj. */
+export const NO_TEMPCO = {
+  vthTempCoeffVPerK: 0,
+  rdsTempCoeffPerK: 0,
+  diodeVfTempCoeffVPerK: 0,
+  qrrTempCoeffPerK: 0,
+} as const;
+
+/** `devices.highSide` / `devices.lowSide` patch with the same overrides on both sides. */
+export function bothDevices(part: string, over: Record<string, number>): Record<string, unknown> {
+  return { 'devices.highSide': { part, ...over }, 'devices.lowSide': { part, ...over } };
+}
