@@ -6,11 +6,14 @@
 import { mkdirSync, renameSync, writeFileSync } from 'node:fs';
 import { cpus } from 'node:os';
 import { fileURLToPath } from 'node:url';
+import { benchMargins } from './margins.ts';
 import { benchOpPoint } from './opPoint.ts';
+import { benchServer } from './server.ts';
+import { benchReplay } from './replay.ts';
 import { benchStudy } from './study.ts';
 import type { Bench, BenchResult } from './types.ts';
 
-const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint], ['study', benchStudy]];
+const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint], ['study', benchStudy], ['replay', benchReplay], ['margins', benchMargins], ['server', benchServer]];
 
 function line(r: BenchResult): string {
   const value = r.value >= 100 ? Math.round(r.value).toString() : r.value.toPrecision(4);

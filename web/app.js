@@ -161,7 +161,7 @@ function onScenario(m) {
   sup.checked = m.supervisorOn;
   setSupervisor(m.supervisorOn);
   $('scenario-text').value = m.text;
-  $('problem-list').textContent = '';
+  showProblemsIdle();
   charts.setMeta({ regulatedName: m.regulated.name, regulatedUnit: m.regulated.unit, tjLimitC: m.tjLimitC, pmFloorDeg: m.pmFloorDeg, loadKind: m.load.kind });
   if (m.supervisorAvailable === false) $('knob-hint').textContent = '(no supervisor in this scenario)';
 }
@@ -264,6 +264,15 @@ function onMargins(m) {
 }
 
 // ------------------------------------------------------------------ editor
+
+function showProblemsIdle() {
+  const ol = $('problem-list');
+  ol.textContent = '';
+  const li = document.createElement('li');
+  li.className = 'idle';
+  li.textContent = 'Edit, then press Check: problems appear here with their field path.';
+  ol.append(li);
+}
 
 /** @param {Array<{path:string, message:string}>} problems */
 function showProblems(problems) {

@@ -74,11 +74,10 @@ function drawBode(r) {
     font: FONT,
     showlegend: false,
     margin: { l: 60, r: 16, t: 10, b: 40 },
-    grid: { rows: 2, columns: 1, subplots: [['xy'], ['x2y2']], roworder: 'top to bottom' },
-    xaxis: { type: 'log', matches: 'x2', showticklabels: false, gridcolor: '#e6e1d6' },
-    xaxis2: { type: 'log', title: { text: 'frequency (Hz)' }, gridcolor: '#e6e1d6' },
-    yaxis: { title: { text: 'magnitude (dB)' }, gridcolor: '#e6e1d6' },
-    yaxis2: { title: { text: 'phase (°)' }, gridcolor: '#e6e1d6' },
+    xaxis: { type: 'log', matches: 'x2', showticklabels: false, gridcolor: '#e6e1d6', anchor: 'y' },
+    xaxis2: { type: 'log', title: { text: 'frequency (Hz)' }, gridcolor: '#e6e1d6', anchor: 'y2' },
+    yaxis: { title: { text: 'magnitude (dB)' }, gridcolor: '#e6e1d6', domain: [0.53, 1] },
+    yaxis2: { title: { text: 'phase (°)' }, gridcolor: '#e6e1d6', domain: [0, 0.47] },
     shapes,
     paper_bgcolor: '#ffffff',
     plot_bgcolor: '#fbfaf7',
@@ -112,12 +111,13 @@ export function drawMap(r) {
     },
   ];
   const title = document.getElementById('title-map');
-  if (title) title.textContent = `Phase margin over switching frequency × gate drive — dashed: ${floor}° floor, star: present point`;
+  if (title) title.textContent = `Phase margin over fsw × gate drive (★ now, dashed: ${floor}° floor)`;
+  const ticks = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000].filter((v) => v >= Math.min(...xs) * 0.95 && v <= Math.max(...xs) * 1.05);
   Plotly.react(el, traces, {
     font: FONT,
     showlegend: false,
     margin: { l: 60, r: 16, t: 10, b: 40 },
-    xaxis: { type: 'log', title: { text: 'switching frequency (kHz)' } },
+    xaxis: { type: 'log', title: { text: 'switching frequency (kHz)' }, tickvals: ticks, ticktext: ticks.map(String) },
     yaxis: { title: { text: 'gate drive (V)' } },
     paper_bgcolor: '#ffffff',
   }, CONFIG);

@@ -2,15 +2,18 @@
  * The exact discrete-time closed loop of the inner controller and its poles.
  *
  * State at sample k (before the update): plant x[k] (n), the duty held over the previous period
- * (only when D ≠ 0), the filter output y_f[k−1] (only with a filter), the PI's stored error
- * e[k−1] and state x_pi[k−1], and the delay line q_i = command[k−i], i = 1…N. One sample of the
- * engine (src/sim/engine.ts), linearized about the operating point with the reference fixed:
+ * (only when D ≠ 0), the filter output y_f[k−1] (only with a filter), the PI's integral state
+ * σ[k] = Σ_{j<k} e[j] (only with integral action), and the delay line q_i = command[k−i],
+ * i = 1…N. One sample of the engine (src/sim/engine.ts), linearized about the operating point
+ * with the reference fixed:
  *
  *   y = C·x (+ D·d_held);  y_f = y_f⁻ + a·(y − y_f⁻);  e = −y_f;
- *   x_pi = x_pi⁻ + b0·e + b1·e⁻;  d = N > 0 ? q_N : x_pi;  x⁺ = Ad·x + Bd·d;  q shifts in x_pi.
+ *   u = b0·e + (b0 + b1)·σ;  σ⁺ = σ + e;  d = N > 0 ? q_N : u;  x⁺ = Ad·x + Bd·d;  q shifts in u.
  *
- * Without integral action (b0 + b1 = 0) the stored offset x_pi − kp·e is an invariant (eigenvalue
- * exactly 1, unobservable in L(z) = kp·…): it only shifts the equilibrium, so x_pi = b0·e is used.
+ * u is the engine's velocity-form output x_pi[k] = x_pi[k−1] + b0·e[k] + b1·e[k−1] written with
+ * one state (its minimal realization: C(z) = b0 + (b0 + b1)·z⁻¹/(1 − z⁻¹)). Without integral
+ * action (b0 + b1 = 0) the velocity form's stored offset is a constant that only shifts the
+ * equilibrium, not a mode, so there is no PI state and u = b0·e.
  *
  * The matrix is built by applying that update to unit vectors, so it is the engine's sample
  * step by construction. Stable iff every eigenvalue has modulus < 1.
@@ -24,7 +27,6 @@ export interface ClosedLoopLayout {
   /** −1 when absent. */
   readonly held: number;
   readonly filter: number;
-  readonly ePrev: number;
   readonly pi: number;
   /** First delay slot (q_1); N slots follow. */
   readonly delay: number;
@@ -34,14 +36,13 @@ export function closedLoopLayout(loop: DiscreteLoop): ClosedLoopLayout {
   let k = loop.n;
   const held = loop.d !== 0 ? k++ : -1;
   const filter = loop.hasFilter ? k++ : -1;
-  const ePrev = k++;
-  const pi = k++;
+  const pi = loop.integrator ? k++ : -1;
   const delay = k;
   k += loop.delaySamples;
-  return { size: k, x: 0, held, filter, ePrev, pi, delay };
+  return { size: k, x: 0, held, filter, pi, delay };
 }
 
-/** One linearized engine sample with zero reference (and optional disturbance contribution). */
+/** One linearized engine sample with zero reference. */
 export function closedLoopStep(loop: DiscreteLoop, lay: ClosedLoopLayout, s: Float64Array, out: Float64Array): void {
   const n = loop.n;
   let y = 0;
@@ -50,9 +51,9 @@ export function closedLoopStep(loop: DiscreteLoop, lay: ClosedLoopLayout, s: Flo
   let yf = y;
   if (lay.filter >= 0) yf = s[lay.filter] + loop.filterA * (y - s[lay.filter]);
   const e = -yf;
-  const xPi = loop.integrator ? s[lay.pi] + loop.b0 * e + loop.b1 * s[lay.ePrev] : loop.b0 * e;
+  const u = lay.pi >= 0 ? loop.b0 * e + (loop.b0 + loop.b1) * s[lay.pi] : loop.b0 * e;
   const N = loop.delaySamples;
-  const duty = N > 0 ? s[lay.delay + N - 1] : xPi;
+  const duty = N > 0 ? s[lay.delay + N - 1] : u;
   for (let i = 0; i < n; i++) {
     let v = loop.bd[i] * duty;
     for (let j = 0; j < n; j++) v += loop.ad[i * n + j] * s[j];
@@ -60,10 +61,9 @@ export function closedLoopStep(loop: DiscreteLoop, lay: ClosedLoopLayout, s: Flo
   }
   if (lay.held >= 0) out[lay.held] = duty;
   if (lay.filter >= 0) out[lay.filter] = yf;
-  out[lay.ePrev] = e;
-  out[lay.pi] = xPi;
+  if (lay.pi >= 0) out[lay.pi] = s[lay.pi] + e;
   for (let i = N - 1; i >= 1; i--) out[lay.delay + i] = s[lay.delay + i - 1];
-  if (N > 0) out[lay.delay] = xPi;
+  if (N > 0) out[lay.delay] = u;
 }
 
 /** Row-major closed-loop state matrix. */

@@ -270,7 +270,7 @@ function validateAxes(scenario: Scenario, axes: readonly MapAxis[]): void {
 export interface MarginMapOptions {
   /** Base overrides applied to every cell (e.g. fixed temperatures). */
   readonly overrides?: MarginOverrides;
-  /** Grid density of the margin search (default 10 per decade, refined adaptively). */
+  /** Grid density of the margin search (default 8 per decade, refined adaptively). */
   readonly pointsPerDecade?: number;
 }
 
@@ -292,7 +292,7 @@ export function marginMap(scenario: Scenario, axes: readonly MapAxis[], opts: Ma
     }
     return c;
   };
-  const ppd = opts.pointsPerDecade ?? 10;
+  const ppd = opts.pointsPerDecade ?? 8;
   const cells: MapCell[] = [];
   const evalCell = (vals: number[]): MapCell => {
     const o: MarginOverrides = { ...opts.overrides };

@@ -124,7 +124,7 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
         break;
       }
     } else hotClimbs = 0;
-    ep = electricalPoint(plant, k, tjH, tjL, ep.regulated ? ep.duty : undefined);
+    ep = electricalPoint(plant, k, tjH, tjL);
     temps = thermalSteadyState(net, thermalInputsOf(plant, ep, c, tIn));
   }
   if (it >= MAX_IT && status === 'ok') status = 'unconverged';

@@ -54,6 +54,7 @@ export interface SampledResponse {
 }
 
 const DEG = 180 / Math.PI;
+const toHz = (omegaRadS: number): number => omegaRadS / (2 * Math.PI);
 
 type LoopFn = (omegaRadS: number) => Complex;
 
@@ -63,16 +64,20 @@ function evalChecked(fn: LoopFn, w: number): Complex {
   return v;
 }
 
-function pushSample(out: SampledResponse, w: number, re: number, im: number): void {
+/** Append a sample; dPh and d1p are the phase steps of L and 1 + L from the previous sample (degrees). */
+function pushSample(out: SampledResponse, w: number, re: number, im: number, dPh: number, d1p: number): void {
   const n = out.omegaRadS.length;
-  const ph = Math.atan2(im, re) * DEG;
-  const a1 = Math.atan2(im, 1 + re) * DEG;
   out.omegaRadS.push(w);
   out.re.push(re);
   out.im.push(im);
   out.logMag.push(0.5 * Math.log10(re * re + im * im));
-  out.phaseDeg.push(n === 0 ? ph : out.phaseDeg[n - 1] + wrapDeg(ph - out.phaseDeg[n - 1]));
-  out.argOnePlusDeg.push(n === 0 ? a1 : out.argOnePlusDeg[n - 1] + wrapDeg(a1 - out.argOnePlusDeg[n - 1]));
+  out.phaseDeg.push(n === 0 ? Math.atan2(im, re) * DEG : out.phaseDeg[n - 1] + dPh);
+  out.argOnePlusDeg.push(n === 0 ? Math.atan2(im, 1 + re) * DEG : out.argOnePlusDeg[n - 1] + d1p);
+}
+
+/** Angle of b/a in degrees, in (−180, 180]: the phase step between two samples with one atan2. */
+function stepDeg(ar: number, ai: number, br: number, bi: number): number {
+  return Math.atan2(bi * ar - br * ai, br * ar + bi * ai) * DEG;
 }
 
 /** Sample L adaptively between omegaMin and omegaMax (both included). */
@@ -86,30 +91,33 @@ export function sampleResponse(fn: LoopFn, opts: MarginSearchOptions): SampledRe
   const out: SampledResponse = { omegaRadS: [], re: [], im: [], logMag: [], phaseDeg: [], argOnePlusDeg: [] };
   const ratio = Math.pow(wMax / wMin, 1 / (nInit - 1));
   let v = evalChecked(fn, wMin);
-  pushSample(out, wMin, v.re, v.im);
+  pushSample(out, wMin, v.re, v.im, 0, 0);
   // Pending right ends of the interval being refined (a stack; the left end is the last sample).
   const stW: number[] = [];
   const stRe: number[] = [];
   const stIm: number[] = [];
+  let ar = v.re;
+  let ai = v.im;
+  let wa = wMin;
   for (let i = 1; i < nInit; i++) {
     const w = i === nInit - 1 ? wMax : wMin * Math.pow(ratio, i);
     v = evalChecked(fn, w);
     stW.push(w); stRe.push(v.re); stIm.push(v.im);
     while (stW.length > 0) {
       const k = stW.length - 1;
-      const n = out.omegaRadS.length - 1;
-      const wa = out.omegaRadS[n], ra = out.re[n], ia = out.im[n];
       const wb = stW[k], rb = stRe[k], ib = stIm[k];
-      const dPh = Math.abs(wrapDeg((Math.atan2(ib, rb) - Math.atan2(ia, ra)) * DEG));
-      const d1p = track1p ? Math.abs(wrapDeg((Math.atan2(ib, 1 + rb) - Math.atan2(ia, 1 + ra)) * DEG)) : 0;
-      const dMag = 0.5 * Math.abs(Math.log10((rb * rb + ib * ib) / (ra * ra + ia * ia)));
-      if ((dPh > maxStep || d1p > maxStep || dMag > 0.5) && wb / wa > 1 + 1e-9) {
+      const dPh = stepDeg(ar, ai, rb, ib);
+      const d1p = stepDeg(1 + ar, ai, 1 + rb, ib);
+      // |b|²/|a|² outside [0.1, 10]: a magnitude step of more than half a decade.
+      const m2 = (rb * rb + ib * ib) / (ar * ar + ai * ai);
+      if ((Math.abs(dPh) > maxStep || (track1p && Math.abs(d1p) > maxStep) || m2 > 10 || m2 < 0.1) && wb / wa > 1 + 1e-9) {
         const wm = Math.sqrt(wa * wb);
         const vm = evalChecked(fn, wm);
         stW.push(wm); stRe.push(vm.re); stIm.push(vm.im);
         continue;
       }
-      pushSample(out, wb, rb, ib);
+      pushSample(out, wb, rb, ib, dPh, d1p);
+      ar = rb; ai = ib; wa = wb;
       stW.pop(); stRe.pop(); stIm.pop();
     }
   }
@@ -195,7 +203,6 @@ export function marginsFromSamples(fn: LoopFn, s: SampledResponse, opts: MarginS
   let gm = Infinity;
   let wp = NaN;
   for (let i = 0; i < phaseW.length; i++) if (phaseGm[i] < gm) { gm = phaseGm[i]; wp = phaseW[i]; }
-  const toHz = (x: number): number => x / (2 * Math.PI);
   return {
     crossoverHz: toHz(wc),
     pmDeg: pm,

@@ -28,6 +28,7 @@ export interface SuggestOptions {
 export interface CornerMargins {
   readonly fswHz: number;
   readonly load: number;
+  /** Lowest gain crossover (the loop's bandwidth); NaN when |L| never reaches 1. */
   readonly crossoverHz: number;
   readonly pmDeg: number;
   readonly gmDb: number;
@@ -58,7 +59,10 @@ function evalCorners(ctx: MarginContext, corners: readonly Corner[], basis: PiBa
     const ev = evaluateLoop(ctx, c.lp, basis, c.o, 10, { kp, ki });
     const m = ev.analysis.margins;
     const stable = ev.analysis.stable;
-    return { fswHz: c.fswHz, load: c.load, crossoverHz: m.crossoverHz, pmDeg: m.pmDeg, gmDb: m.gmDb, stable, holds: stable && m.pmDeg >= pmFloor && m.gmDb >= gmFloor };
+    // The bandwidth: the lowest gain crossover (|L| > 1 from DC up to it). A resonance peak poking
+    // above 0 dB adds crossings higher up; maximizing those would reward a loop with no low-frequency gain.
+    const bw = m.gainCrossingsHz.length > 0 ? m.gainCrossingsHz[0] : NaN;
+    return { fswHz: c.fswHz, load: c.load, crossoverHz: bw, pmDeg: m.pmDeg, gmDb: m.gmDb, stable, holds: stable && m.pmDeg >= pmFloor && m.gmDb >= gmFloor };
   });
 }
 

@@ -6,12 +6,12 @@ function pct(x: number): string {
   return x === 0 ? '0 %' : x < 0.01 ? `${fixed(100 * x, 2)} %` : `${fixed(100 * x, 1)} %`;
 }
 
-export function renderRiskTable(summary: StudySummary): string {
+export function renderRiskTable(summary: StudySummary, kind: string): string {
   const head = ['hazard', 'builds', 'fraction', '95 % interval (Wilson)'];
   const rows = summary.risk.map((r) => [r.label, `${r.count}/${r.n}`, pct(r.fraction), `${pct(r.lo)} … ${pct(r.hi)}`]);
   const cost = Object.entries(summary.cost).map(([f, s]) => [COST_LABELS[f] ?? f, fixed(s.mean, 2), fixed(s.p5, 2), fixed(s.p50, 2), fixed(s.p95, 2), fixed(s.max, 2)]);
   let text = `Risk\n${table([head, ...rows], ['l', 'r', 'r', 'r'])}`;
-  if (cost.length > 0) text += `\nHeat margin\n${table([['quantity', 'mean', 'p5', 'median', 'p95', 'max'], ...cost])}`;
+  if (cost.length > 0) text += `\n${kind === 'point' ? 'Heat margin' : 'Statistics'}\n${table([['quantity', 'mean', 'p5', 'median', 'p95', 'max'], ...cost])}`;
   return text;
 }
 

@@ -75,6 +75,8 @@ ${x.map ? '<div id="map" class="chart"></div>' : ''}
 <script>
 const D = ${scriptJson(data)};
 const colors = { continuous: '#1f77b4', perSample: '#d62728' };
+// PM from −90° (dark red) through 0° (pale) and the floor region (yellow) to 120° (green); zmin −90, zmax 120.
+const PM_SCALE = [[0, '#67001f'], [0.40, '#f4a582'], [0.43, '#fddbc7'], [0.5, '#fee08b'], [0.75, '#a6d96a'], [1, '#1a9850']];
 const bode = [];
 for (const b of ['continuous', 'perSample']) {
   const e = D.bode.exact[b], a = D.bode.approx[b];
@@ -94,11 +96,11 @@ for (const b of ['continuous', 'perSample']) {
   }
 }
 Plotly.newPlot('bode', bode, {
-  title: 'Loop gain L(e^{jωTs})', grid: { rows: 2, columns: 1, pattern: 'independent' },
-  xaxis: { type: 'log', title: 'frequency (Hz)' }, yaxis: { title: 'magnitude (dB)', zeroline: true },
-  xaxis2: { type: 'log', title: 'frequency (Hz)', matches: 'x' }, yaxis2: { title: 'phase (deg)' },
+  title: { text: 'Loop gain L(e^{jωTs})' }, grid: { rows: 2, columns: 1, pattern: 'independent' },
+  xaxis: { type: 'log', title: { text: 'frequency (Hz)' } }, yaxis: { title: { text: 'magnitude (dB)' }, zeroline: true },
+  xaxis2: { type: 'log', title: { text: 'frequency (Hz)' }, matches: 'x' }, yaxis2: { title: { text: 'phase (deg)' } },
   shapes: [{ type: 'line', xref: 'x2 domain', x0: 0, x1: 1, yref: 'y2', y0: -180, y1: -180, line: { color: '#888', dash: 'dot' } }],
-  legend: { orientation: 'h' }, margin: { t: 40 },
+  legend: { orientation: 'h', y: -0.22 }, margin: { t: 40 },
 }, { responsive: true });
 if (D.map) {
   const ax = D.map.axes;
@@ -109,14 +111,14 @@ if (D.map) {
       tr.push({ x: ax[0].values, y: D.map.gm[b], name: b + ' GM (dB)', line: { color: colors[b], dash: 'dot' }, yaxis: 'y2' });
     }
     Plotly.newPlot('map', tr, {
-      title: 'Margins vs ' + ax[0].path,
-      xaxis: { title: ax[0].path }, yaxis: { title: 'phase margin (deg)' }, yaxis2: { title: 'gain margin (dB)', overlaying: 'y', side: 'right' },
+      title: { text: 'Margins vs ' + ax[0].path },
+      xaxis: { title: { text: ax[0].path }, type: ax[0].path.endsWith('fswHz') ? 'log' : 'linear' }, yaxis: { title: { text: 'phase margin (deg)' } }, yaxis2: { title: { text: 'gain margin (dB)' }, overlaying: 'y', side: 'right' },
       shapes: [
         { type: 'line', xref: 'x domain', x0: 0, x1: 1, yref: 'y', y0: D.pmFloorDeg, y1: D.pmFloorDeg, line: { color: '#2a2', dash: 'dash' } },
         { type: 'line', xref: 'x domain', x0: 0, x1: 1, yref: 'y2', y0: D.gmFloorDb, y1: D.gmFloorDb, line: { color: '#a82', dash: 'dash' } },
       ],
       annotations: [{ xref: 'paper', x: 0, yref: 'y', y: D.pmFloorDeg, text: 'PM floor ' + D.pmFloorDeg + '°', showarrow: false, xanchor: 'left', yanchor: 'bottom' }],
-      legend: { orientation: 'h' },
+      legend: { orientation: 'h', y: -0.2 },
     }, { responsive: true });
   } else {
     const nx = ax[1].values.length;
@@ -125,14 +127,15 @@ if (D.map) {
     ['continuous', 'perSample'].forEach((b, k) => {
       const z = grid(D.map.pm[b]).map((row) => row.map((v) => (v === null ? null : Math.max(-90, Math.min(120, v)))));
       const xa = k === 0 ? 'x' : 'x2', ya = k === 0 ? 'y' : 'y2';
-      tr.push({ type: 'heatmap', x: ax[1].values, y: ax[0].values, z, zmin: -90, zmax: 120, colorscale: 'RdYlGn', colorbar: { title: 'PM (deg)' }, showscale: k === 0, xaxis: xa, yaxis: ya, name: b, hovertemplate: ax[1].path + ' %{x}<br>' + ax[0].path + ' %{y}<br>PM %{z:.1f}°<extra>' + b + '</extra>' });
-      tr.push({ type: 'contour', x: ax[1].values, y: ax[0].values, z, showscale: false, contours: { start: D.pmFloorDeg, end: D.pmFloorDeg, size: 1, coloring: 'none', showlabels: true }, line: { color: '#000', width: 2, dash: 'dash' }, xaxis: xa, yaxis: ya, name: 'PM floor ' + D.pmFloorDeg + '°', hoverinfo: 'skip' });
+      tr.push({ type: 'heatmap', x: ax[1].values, y: ax[0].values, z, zmin: -90, zmax: 120, colorscale: PM_SCALE, colorbar: { title: { text: 'PM (deg)' } }, showscale: k === 1, xaxis: xa, yaxis: ya, name: b, hovertemplate: ax[1].path + ' %{x}<br>' + ax[0].path + ' %{y}<br>PM %{z:.1f}°<extra>' + b + '</extra>' });
+      tr.push({ type: 'contour', x: ax[1].values, y: ax[0].values, z, showscale: false, contours: { start: D.pmFloorDeg, end: D.pmFloorDeg, size: 1, coloring: 'none', showlabels: true }, showlegend: false, line: { color: '#000', width: 2, dash: 'dash' }, xaxis: xa, yaxis: ya, name: 'PM floor ' + D.pmFloorDeg + '°', hoverinfo: 'skip' });
     });
     Plotly.newPlot('map', tr, {
-      title: 'Phase margin map (dashed: the ' + D.pmFloorDeg + '° floor); left continuous basis, right per-sample basis',
+      title: { text: 'Phase margin map (dashed: the ' + D.pmFloorDeg + '° floor) — left: continuous basis, right: per-sample basis' },
       grid: { rows: 1, columns: 2, pattern: 'independent' },
-      xaxis: { title: ax[1].path }, yaxis: { title: ax[0].path, type: ax[0].path.endsWith('fswHz') ? 'log' : 'linear' },
-      xaxis2: { title: ax[1].path }, yaxis2: { title: ax[0].path, type: ax[0].path.endsWith('fswHz') ? 'log' : 'linear' },
+      xaxis: { title: { text: ax[1].path } }, yaxis: { title: { text: ax[0].path }, type: ax[0].path.endsWith('fswHz') ? 'log' : 'linear' },
+      xaxis2: { title: { text: ax[1].path } }, yaxis2: { title: { text: ax[0].path }, type: ax[0].path.endsWith('fswHz') ? 'log' : 'linear' },
+      showlegend: false,
     }, { responsive: true });
   }
 }

@@ -147,7 +147,7 @@ function buckDutyResidual(d: number): number {
 }
 
 /** Buck, load from the plant unless `loadOverride` gives the load resistance or current. */
-export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number, dutyGuess?: number): ElectricalPoint {
+export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number): ElectricalPoint {
   const b = plant.conv as BuckParams;
   const vin = vinOverrideV ?? b.vinV;
   const rL = dcrOhm(b.dcr20Ohm, b.inductorTempC);
@@ -156,7 +156,7 @@ export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number,
   let io = loadCurrentA(b, vo);
   const st = buckSolve;
   st.plant = plant; st.k = k; st.vin = vin; st.io = io; st.vFar = vo + io * rL; st.lH = b.lH; st.tjH = tjH; st.tjL = tjL;
-  const sol = solveIncreasing(buckDutyResidual, plant.dutyMin, plant.dutyMax, dutyGuess ?? (vo + io * rL) / vin, 1e-12 * vin);
+  const sol = solveIncreasing(buckDutyResidual, plant.dutyMin, plant.dutyMax, (vo + io * rL) / vin, 1e-12 * vin);
   st.plant = st.k = null;
   let duty = sol.d;
   let regulated = sol.ok;
@@ -278,6 +278,6 @@ export function halfBridgeElectrical(plant: Plant, k: Knobs, tjH: number, tjL: n
   };
 }
 
-export function electricalPoint(plant: Plant, k: Knobs, tjH: number, tjL: number, dutyGuess?: number): ElectricalPoint {
-  return plant.conv.kind === 'buck' ? buckElectrical(plant, k, tjH, tjL, undefined, dutyGuess) : halfBridgeElectrical(plant, k, tjH, tjL);
+export function electricalPoint(plant: Plant, k: Knobs, tjH: number, tjL: number): ElectricalPoint {
+  return plant.conv.kind === 'buck' ? buckElectrical(plant, k, tjH, tjL) : halfBridgeElectrical(plant, k, tjH, tjL);
 }

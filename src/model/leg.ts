@@ -208,6 +208,9 @@ const edgeFall: Edge = { ...edgeRise };
 /**
  * One commutation. `toHigh` true: low side hands over to high side (node starts near 0),
  * false: high to low (node starts near the bus). `gapS` is the effective dead time (≥ 0).
+ * The diode carries the edge current `i` for the whole gap: exact while the gap is short next
+ * to the period; for gaps comparable with the low-side interval (dead time ≳ (1 − D)·T) the
+ * ramp during the gap is ignored and the diode loss is underestimated.
  */
 function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus: number, vDriveV: number, tjH: number, tjL: number, out: Edge): void {
   const cTot = p.hs.cossF + p.ls.cossF;

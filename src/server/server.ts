@@ -12,7 +12,7 @@ import { fileURLToPath } from 'node:url';
 import { WebSocket, WebSocketServer } from 'ws';
 import { createApp } from './app.ts';
 import { type CaseLibrary, caseLibrary } from './cases.ts';
-import { type ConnectionLimits, attachConnection } from './connection.ts';
+import { type ConnectionLimits, type ConnectionStats, attachConnection } from './connection.ts';
 import { PROTOCOL_VERSION } from './protocol.ts';
 import { hostChecker, originAllowed } from './security.ts';
 import type { Session } from './session.ts';
@@ -42,8 +42,8 @@ export interface RunningServer {
   readonly port: number;
   readonly http: Server;
   readonly sessions: ReadonlyMap<string, Session>;
-  /** Bytes queued to each session's client (for tests and the benchmark). */
-  bufferedBytes(): Map<string, number>;
+  /** Per-session transport figures: bytes queued to the client now, frames sent and held back. */
+  connectionStats(): Map<string, { bufferedBytes: number; framesSent: number; framesHeld: number; messagesSent: number }>;
   close(): Promise<void>;
 }
 
@@ -99,7 +99,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
   const hostAllowed = hostChecker(host);
 
   const sessions = new Map<string, Session>();
-  const stats = new Map<string, () => number>();
+  const stats = new Map<string, ConnectionStats>();
   let pendingConnections = 0;
   let running = 0;
 
@@ -150,7 +150,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
         log,
       },
     });
-    if (sessions.has(session.id)) stats.set(session.id, () => st.bufferedBytes());
+    if (sessions.has(session.id)) stats.set(session.id, st);
   });
 
   const refuseFull = (ws: WebSocket): void => {
@@ -210,7 +210,8 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
     port: actualPort,
     http,
     sessions,
-    bufferedBytes: () => new Map([...stats].map(([id, f]) => [id, f()])),
+    connectionStats: () =>
+      new Map([...stats].map(([id, st]) => [id, { bufferedBytes: st.bufferedBytes(), framesSent: st.framesSent, framesHeld: st.framesHeld, messagesSent: st.messagesSent }])),
     close(): Promise<void> {
       closing ??= new Promise<void>((resolve) => {
         for (const ws of wss.clients) ws.terminate();

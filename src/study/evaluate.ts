@@ -5,19 +5,17 @@
  * only how fast a sample is computed, never its record.
  */
 import { type OperatingPoint, operatingPoint, pointContext } from '../analysis/operatingPoint.ts';
-import { createSupervisor, knobsAtEffort } from '../control/supervisor.ts';
+import { knobsAtEffort } from '../control/supervisor.ts';
 import { ScenarioError } from '../scenario/errors.ts';
 import type { Scenario } from '../scenario/parse.ts';
 import { simulate } from '../sim/engine.ts';
+import { supervisorFor } from '../sim/supervisorHook.ts';
 import { buildSystem } from '../sim/system.ts';
-import { evaluateMargins, type MarginsSummary } from './margins.ts';
+import { MARGINS_FIELDS, type MarginsSummary, evaluateMargins } from './margins.ts';
+import { r7 } from './round.ts';
 import type { SamplePlan } from './sampler.ts';
 import { type StudyContext, paramPatch, sampleScenarios } from './variant.ts';
 
-/** Seven significant digits: plenty for a study summary, and it keeps result files compact. */
-export function r7(x: number): number {
-  return Number.isFinite(x) ? Number(x.toPrecision(7)) : x;
-}
 
 export interface PointSummary {
   status: OperatingPoint['status'];
@@ -130,21 +128,8 @@ export function pointSummary(ctx: StudyContext, s: Scenario, op: OperatingPoint)
  * interval from 0 and bisection finds its end.
  */
 export function achievableHeatW(ctx: StudyContext, s: Scenario): number {
-  const sup = s.supervisor;
-  if (!sup) throw new ScenarioError([{ path: 'supervisor', message: 'required for deviceSpread.achievableHeat' }]);
-  const band = sup.stableBandHz;
-  const fswLo = Math.max(sup.fsw.minHz, band?.[0] ?? 0);
-  const ladder: Parameters<typeof knobsAtEffort>[0] = {
-    fswLo,
-    fswHi: Math.max(fswLo, Math.min(sup.fsw.maxHz, band?.[1] ?? Infinity)),
-    fswHiBinding: 'fswMax',
-    deadLo: sup.deadTime.enabled ? sup.deadTime.minS : s.pwm.deadTimeS,
-    deadHi: sup.deadTime.enabled ? sup.deadTime.maxS : s.pwm.deadTimeS,
-    vgHi: sup.gateDrive.enabled ? sup.gateDrive.maxV : s.gateDrive.vDriveV,
-    vgLo: sup.gateDrive.enabled ? sup.gateDrive.minV : s.gateDrive.vDriveV,
-    vgLoBinding: 'gateDriveMin',
-    enabled: [sup.fsw.enabled, sup.deadTime.enabled, sup.gateDrive.enabled],
-  };
+  const ladder = ctx.ladder;
+  if (!ladder) throw new ScenarioError([{ path: 'supervisor', message: 'required for deviceSpread.achievableHeat' }]);
   const pc = pointContext(s);
   const at = (effort: number): { ok: boolean; heatW: number } => {
     const op = operatingPoint(pc, knobsAtEffort(ladder, effort));
@@ -209,7 +194,7 @@ function evaluateRun(ctx: StudyContext, plan: SamplePlan): RunSummary {
   let heatSum = 0;
   let lossSum = 0;
   let n = 0;
-  const supervisor = createSupervisor(sys);
+  const supervisor = supervisorFor(sys);
   const r = simulate(sys, {
     supervisor,
     keepRecords: false,
@@ -221,8 +206,9 @@ function evaluateRun(ctx: StudyContext, plan: SamplePlan): RunSummary {
       n++;
     },
   });
-  const tjHsPeak = Math.max(tjHs, r.finalTempsC[0] ?? -Infinity);
-  const tjLsPeak = Math.max(tjLs, r.finalTempsC[1] ?? -Infinity);
+  const junction = sys.net.layout.junction;
+  const tjHsPeak = Math.max(tjHs, r.finalTempsC[junction[0]]);
+  const tjLsPeak = Math.max(tjLs, r.finalTempsC[junction[1]]);
   const headroom = headroomK(ctx, s, tjHsPeak, tjLsPeak);
   const peak = Math.max(tjHsPeak, tjLsPeak);
   const runaway = peak >= s.limits.runawayTjC || /runaway/i.test(r.cause ?? '');
@@ -272,5 +258,5 @@ const RUN_FIELDS = [
   'totalLossMeanW', 'runaway', 'tjOverLimit', 'warnings', 'error',
 ] as const satisfies ReadonlyArray<keyof RunSummary | 'error'>;
 
-/** Result fields each kind can put in results.csv (`outputs`); margins fields are not known up front. */
-export const RESULT_FIELDS: Readonly<Record<string, readonly string[] | undefined>> = { point: POINT_FIELDS, run: RUN_FIELDS, margins: undefined };
+/** Result fields each kind can put in results.csv (`outputs`). */
+export const RESULT_FIELDS: Readonly<Record<string, readonly string[]>> = { point: POINT_FIELDS, run: RUN_FIELDS, margins: MARGINS_FIELDS };

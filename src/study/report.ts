@@ -96,8 +96,8 @@ pre { background: #f4f6f8; padding: .6rem; overflow-x: auto; }
 <table><tr><th>hazard</th><th>builds</th><th>of</th><th>fraction</th><th>95 % interval</th></tr>
 ${riskRows(s.risk)}
 </table>
-<h2>Heat margin</h2>
-<p class="muted">Statistics over the evaluated builds. Changes are against the same sample with nominal devices.</p>
+<h2>${input.kind === 'point' ? 'Heat margin' : 'Statistics'}</h2>
+<p class="muted">Over the evaluated samples.${input.spread ? ' Changes are against the same sample with nominal devices.' : ''}</p>
 <table><tr><th>quantity</th><th>n</th><th>mean</th><th>p5</th><th>median</th><th>p95</th><th>min</th><th>max</th></tr>
 ${cost}
 </table>

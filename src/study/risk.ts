@@ -20,7 +20,8 @@ export function wilsonInterval(k: number, n: number, z = Z95): { lo: number; hi:
   const denom = 1 + z2 / n;
   const centre = (p + z2 / (2 * n)) / denom;
   const half = (z * Math.sqrt((p * (1 - p)) / n + z2 / (4 * n * n))) / denom;
-  return { lo: Math.max(0, centre - half), hi: Math.min(1, centre + half) };
+  // At k = 0 and k = n the bound is exact (0 or 1); rounding would leave e.g. 2e-17.
+  return { lo: k === 0 ? 0 : Math.max(0, centre - half), hi: k === n ? 1 : Math.min(1, centre + half) };
 }
 
 export interface RiskRow {
@@ -61,17 +62,29 @@ export interface StudySummary {
 
 type Flags = Record<string, unknown>;
 
+const FLAGS = ['saturation', 'runaway', 'tjOverLimit', 'noLoop', 'unstable', 'pmBelowFloor', 'gmBelowFloor'];
+
+/** A boolean result field, or undefined when this kind of sample does not have it. */
+function flag(r: Flags, key: string): boolean | undefined {
+  return r[key] === undefined ? undefined : Boolean(r[key]);
+}
+
+function anyFlag(r: Flags): boolean | undefined {
+  const present = FLAGS.filter((k) => r[k] !== undefined);
+  return present.length === 0 ? undefined : present.some((k) => Boolean(r[k]));
+}
+
 const HAZARDS: ReadonlyArray<{ key: string; label: string; test: (r: Flags) => boolean | undefined }> = [
   { key: 'hsSaturation', label: 'high side saturates or cannot turn on', test: (r) => (r.hsSaturated === undefined ? undefined : Boolean(r.hsSaturated || r.hsCannotTurnOn)) },
   { key: 'lsSaturation', label: 'low side saturates or cannot turn on', test: (r) => (r.lsSaturated === undefined ? undefined : Boolean(r.lsSaturated || r.lsCannotTurnOn)) },
-  { key: 'saturation', label: 'a switch saturates or cannot turn on', test: (r) => (r.saturation === undefined ? undefined : Boolean(r.saturation)) },
-  { key: 'runaway', label: 'thermal runaway', test: (r) => (r.runaway === undefined ? undefined : Boolean(r.runaway)) },
-  { key: 'tjOverLimit', label: 'Tj over limit − margin', test: (r) => (r.tjOverLimit === undefined ? undefined : Boolean(r.tjOverLimit)) },
-  {
-    key: 'any',
-    label: 'any of the above',
-    test: (r) => (r.runaway === undefined && r.saturation === undefined ? undefined : Boolean(r.saturation || r.runaway || r.tjOverLimit)),
-  },
+  { key: 'saturation', label: 'a switch saturates or cannot turn on', test: (r) => flag(r, 'saturation') },
+  { key: 'runaway', label: 'thermal runaway', test: (r) => flag(r, 'runaway') },
+  { key: 'tjOverLimit', label: 'Tj over limit − margin', test: (r) => flag(r, 'tjOverLimit') },
+  { key: 'noLoop', label: 'no small-signal loop (runaway or lost regulation)', test: (r) => flag(r, 'noLoop') },
+  { key: 'unstable', label: 'inner loop unstable', test: (r) => flag(r, 'unstable') },
+  { key: 'pmBelowFloor', label: 'phase margin below floor', test: (r) => flag(r, 'pmBelowFloor') },
+  { key: 'gmBelowFloor', label: 'gain margin below floor', test: (r) => flag(r, 'gmBelowFloor') },
+  { key: 'any', label: 'any of the above', test: (r) => anyFlag(r) },
 ];
 
 function isEvaluated(rec: SampleRecord): boolean {
@@ -141,11 +154,14 @@ const COST_FIELDS: ReadonlyArray<readonly [string, string]> = [
   ['achievableHeatW', 'coolant heat reachable under the Tj limit (W)'],
   ['dAchievableHeatW', 'reachable heat change vs nominal devices (W)'],
   ['heatToCoolantMeanW', 'mean heat to coolant (W)'],
+  ['pmDeg', 'phase margin (°)'],
+  ['gmDb', 'gain margin (dB)'],
+  ['crossoverHz', 'crossover frequency (Hz)'],
 ];
 
 export const COST_LABELS: Readonly<Record<string, string>> = Object.fromEntries(COST_FIELDS);
 
-const HISTOGRAM_FIELDS = ['tjPeakC', 'totalLossW', 'achievableHeatW'];
+const HISTOGRAM_FIELDS = ['tjPeakC', 'totalLossW', 'achievableHeatW', 'pmDeg', 'gmDb'];
 
 /** `gridPaths`: the study's grid axes; with any, the risk table is also given per grid cell. */
 export function summarize(records: readonly SampleRecord[], gridPaths: readonly string[] = []): StudySummary {

@@ -16,7 +16,6 @@ import { writeFileAtomic, writeJsonAtomic } from '../io/atomic.ts';
 import type { Scenario } from '../scenario/parse.ts';
 import type { SampleRecord } from './evaluate.ts';
 import { RESULT_FIELDS } from './evaluate.ts';
-import { MARGINS_AVAILABLE } from './margins.ts';
 import { ResultsFileError, parseRecords, readResultsText, resultsCsv, sortedJsonl } from './records.ts';
 import { renderStudyReport } from './report.ts';
 import { type StudySummary, summarize } from './risk.ts';
@@ -88,8 +87,6 @@ export function manifestOf(spec: StudySpec, base: Scenario, shard: Shard | undef
 
 /** The study's context, checked before anything is written: spec × scenario, outputs, kind. */
 export function prepareStudy(spec: StudySpec, base: Scenario): StudyContext {
-  if (spec.kind === 'margins' && !MARGINS_AVAILABLE)
-    throw new ScenarioError([{ path: 'kind', message: 'margins studies need the margin analysis, which this build does not have yet; use point or run' }]);
   const ctx = studyContext(spec, base);
   const problems: ScenarioProblem[] = [];
   try {
@@ -100,7 +97,7 @@ export function prepareStudy(spec: StudySpec, base: Scenario): StudyContext {
   }
   const known = RESULT_FIELDS[spec.kind];
   (spec.outputs ?? []).forEach((o, i) => {
-    if (known && !known.includes(o)) problems.push({ path: `outputs[${i}]`, message: `unknown result field ${JSON.stringify(o)} for kind ${spec.kind}; known: ${known.join(', ')}` });
+    if (!known.includes(o)) problems.push({ path: `outputs[${i}]`, message: `unknown result field ${JSON.stringify(o)} for kind ${spec.kind}; known: ${known.join(', ')}` });
   });
   if (problems.length > 0) throw new ScenarioError(problems);
   return ctx;
@@ -263,10 +260,11 @@ async function computeSamples(
   resumed: number,
   shardTotal: number,
 ): Promise<{ computed: number; interrupted: boolean; timing: { t0: number; t1: number; tFirst: number; firstCount: number } }> {
-  const workers = Math.max(1, Math.floor(opts.workers));
-  const batchSize = opts.batchSize ?? Math.min(16, Math.max(1, Math.ceil(todo.length / (workers * 32))));
+  const batchSize = opts.batchSize ?? Math.min(16, Math.max(1, Math.ceil(todo.length / (Math.max(1, opts.workers) * 32))));
   const batches: number[][] = [];
   for (let b = 0; b < todo.length; b += batchSize) batches.push(todo.slice(b, b + batchSize));
+  // No more threads than batches: each thread pays the TypeScript start-up.
+  const workers = Math.max(1, Math.min(Math.floor(opts.workers), batches.length));
   const isTs = import.meta.url.endsWith('.ts');
   const workerData: StudyWorkerData = { specInput: opts.spec.input, scenarioInput: opts.scenario.input };
   const pool = new Piscina({
@@ -373,7 +371,7 @@ export async function readStudyDir(dir: string): Promise<{ manifest: StudyManife
  * must come from the same study (spec and scenario); together they must hold every sample
  * exactly once.
  */
-export async function mergeStudies(dirs: readonly string[], outDir: string): Promise<{ total: number; summary: StudySummary | undefined }> {
+export async function mergeStudies(dirs: readonly string[], outDir: string): Promise<{ total: number; kind: string; summary: StudySummary | undefined }> {
   if (dirs.length === 0) throw new StudyError('study-merge: give at least one study directory');
   const parts = [];
   for (const d of dirs) parts.push({ dir: d, ...(await readStudyDir(d)) });
@@ -408,5 +406,5 @@ export async function mergeStudies(dirs: readonly string[], outDir: string): Pro
   const manifest: StudyManifest = { ...first, shard: null };
   await writeJsonAtomic(join(outDir, MANIFEST_FILE), manifest);
   const summary = await finalizeStudy(outDir, manifest, lines);
-  return { total: first.total, summary };
+  return { total: first.total, kind: first.kind, summary };
 }

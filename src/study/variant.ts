@@ -4,6 +4,8 @@
  * instance's draws applied as field overrides (`devices.highSide.vth25V`, ...) and thermal
  * paths (`thermal.devices.highSide.junctionCase.rKPerW`). Pure; every variant is re-validated.
  */
+import { stableFswBand } from '../analysis/stableBand.ts';
+import { knobsAtEffort } from '../control/supervisor.ts';
 import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
 import { type Scenario, withOverrides } from '../scenario/parse.ts';
 import { centre } from './distributions.ts';
@@ -18,23 +20,59 @@ export interface StudyContext {
   readonly operatingPatch: Readonly<Record<string, number>>;
   /** Margin below each device's tjMaxC used by the risk table. */
   readonly tjMarginK: number;
+  /** The supervisor's effort ladder on the base scenario (undefined without a supervisor). */
+  readonly ladder: Ladder | undefined;
+}
+
+export type Ladder = Parameters<typeof knobsAtEffort>[0];
+
+/**
+ * The supervisor's effort ladder: fsw from its lower bound to its upper bound, dead time from
+ * min to max, gate drive from max to min. The fsw bounds are intersected with the stable band
+ * the runner's supervisor gets (src/sim/supervisorHook.ts: margin floors at the top gate
+ * drive, rounded to 0.5 V, intersected with any configured band), computed once per study.
+ */
+export function supervisorLadder(s: Scenario): Ladder | undefined {
+  const sup = s.supervisor;
+  if (!sup) return undefined;
+  const vgHi = sup.gateDrive.enabled ? sup.gateDrive.maxV : s.gateDrive.vDriveV;
+  let band: [number, number] | undefined = sup.stableBandHz ? [sup.stableBandHz[0], sup.stableBandHz[1]] : undefined;
+  if (sup.fsw.enabled) {
+    const b = stableFswBand(s, { pmFloorDeg: sup.pmFloorDeg, gmFloorDb: sup.gmFloorDb, fswMinHz: sup.fsw.minHz, fswMaxHz: sup.fsw.maxHz, vDriveV: Math.round(vgHi * 2) / 2 });
+    if (b.ok) band = band ? [Math.max(band[0], b.loHz), Math.min(band[1], b.hiHz)] : [b.loHz, b.hiHz];
+  }
+  const fswLo = sup.fsw.enabled ? Math.max(sup.fsw.minHz, band?.[0] ?? 0) : s.pwm.fswHz;
+  const fswHi = sup.fsw.enabled ? Math.max(fswLo, Math.min(sup.fsw.maxHz, band?.[1] ?? Infinity)) : s.pwm.fswHz;
+  return {
+    fswLo,
+    fswHi,
+    fswHiBinding: 'fswMax',
+    deadLo: sup.deadTime.enabled ? sup.deadTime.minS : s.pwm.deadTimeS,
+    deadHi: sup.deadTime.enabled ? sup.deadTime.maxS : s.pwm.deadTimeS,
+    vgHi,
+    vgLo: sup.gateDrive.enabled ? sup.gateDrive.minV : s.gateDrive.vDriveV,
+    vgLoBinding: 'gateDriveMin',
+    enabled: [sup.fsw.enabled, sup.deadTime.enabled, sup.gateDrive.enabled],
+  };
 }
 
 /**
  * Where the device spread is evaluated. The supervisor's ladder lowers the gate drive last,
  * after fsw and dead time reached their maxima, so `ladderEnd` is the setting it actually
- * reaches at full effort; `lowestGateDrive` changes the gate drive alone.
+ * reaches at full effort; `lowestGateDrive` changes the gate drive alone (to the ladder's
+ * bottom: supervisor.gateDrive.minV, or the scenario's drive when the supervisor does not move
+ * the gate drive or there is no supervisor).
  */
-function operatingPatchOf(spec: StudySpec, base: Scenario): Record<string, number> {
+function operatingPatchOf(spec: StudySpec, base: Scenario, ladder: Ladder | undefined): Record<string, number> {
   const at = spec.deviceSpread?.at ?? 'scenario';
   if (at === 'scenario') return {};
-  const sup = base.supervisor;
-  if (at === 'ladderEnd' && !sup)
+  if (at === 'ladderEnd' && !ladder)
     throw new ScenarioError([{ path: 'deviceSpread.at', message: `ladderEnd needs a supervisor in scenario ${base.name}; use lowestGateDrive or scenario` }]);
-  const patch: Record<string, number> = { 'gateDrive.vDriveV': sup?.gateDrive.enabled ? sup.gateDrive.minV : base.gateDrive.vDriveV };
-  if (at === 'ladderEnd' && sup) {
-    if (sup.fsw.enabled) patch['pwm.fswHz'] = Math.min(sup.fsw.maxHz, sup.stableBandHz?.[1] ?? Infinity);
-    if (sup.deadTime.enabled) patch['pwm.deadTimeS'] = sup.deadTime.maxS;
+  if (!ladder) return {};
+  const patch: Record<string, number> = { 'gateDrive.vDriveV': ladder.vgLo };
+  if (at === 'ladderEnd') {
+    patch['pwm.fswHz'] = ladder.fswHi;
+    patch['pwm.deadTimeS'] = ladder.deadHi;
   }
   return patch;
 }
@@ -43,7 +81,17 @@ export function studyContext(spec: StudySpec, base: Scenario): StudyContext {
   if (spec.deviceSpread?.achievableHeat && !base.supervisor)
     throw new ScenarioError([{ path: 'deviceSpread.achievableHeat', message: `needs a supervisor in scenario ${base.name} (its ladder defines the reachable settings)` }]);
   const fixed = spec.set ? withSpecSet(base, spec.set) : base;
-  return { spec, base: fixed, operatingPatch: operatingPatchOf(spec, fixed), tjMarginK: spec.limits?.tjMarginK ?? fixed.limits.tjMarginK };
+  const needsLadder = spec.deviceSpread !== undefined && (spec.deviceSpread.at !== 'scenario' || spec.deviceSpread.achievableHeat);
+  if (needsLadder) {
+    // The ladder is computed once, from the base scenario: a per-sample supervisor would silently be ignored.
+    const varied = [...spec.grid.map((a) => `grid.${a.path}`), ...Object.keys(spec.random?.params ?? {}).map((p) => `random.params.${p}`)];
+    const problems = varied
+      .filter((p) => /^(grid|random\.params)\.supervisor\./.test(p))
+      .map((p) => ({ path: p, message: 'the device spread uses the supervisor ladder of the base scenario; set supervisor fields in `set` (one study per value)' }));
+    if (problems.length > 0) throw new ScenarioError(problems);
+  }
+  const ladder = needsLadder ? supervisorLadder(fixed) : undefined;
+  return { spec, base: fixed, operatingPatch: operatingPatchOf(spec, fixed, ladder), tjMarginK: spec.limits?.tjMarginK ?? fixed.limits.tjMarginK, ladder };
 }
 
 function withSpecSet(base: Scenario, set: Readonly<Record<string, unknown>>): Scenario {

@@ -1,12 +1,12 @@
 import { describe, expect, it } from 'vitest';
 import { fc, test } from '@fast-check/vitest';
-import { closedLoopMatrix, closedLoopPoles } from '../../src/analysis/closedLoop.ts';
+import { closedLoopMatrix, closedLoopPoles, closedLoopStep } from '../../src/analysis/closedLoop.ts';
 import { eigenvalues } from '../../src/analysis/eigenvalues.ts';
 import { plantResponseAt } from '../../src/analysis/linearize.ts';
 import { analyzeLoop } from '../../src/analysis/loopAnalysis.ts';
 import { approxLoopGainAt, controllerPathAt, discreteLoop, loopGainAt, sampledPlantAt, sensorFilterCoefficient } from '../../src/analysis/loopGain.ts';
 import { linearPoint, marginContext } from '../../src/analysis/marginContext.ts';
-import { piCoefficients } from '../../src/control/pi.ts';
+import { createPiState, piCoefficients, piStep } from '../../src/control/pi.ts';
 import { expectClose } from '../helpers/expectClose.ts';
 import { caseScenario } from './fixtures.ts';
 
@@ -66,14 +66,44 @@ describe('loop gain: the sampled plant and the digital delay', () => {
 });
 
 describe('closed loop: matrix, poles, Nyquist and margins agree', () => {
-  it('the closed-loop matrix has the plant, the stored error, the PI state and N delay slots', () => {
+  it('the closed-loop matrix has the plant, the filter, one PI state and N delay slots', () => {
     const pi = piCoefficients({ basis: 'continuous', kp: 0.002, ki: 60, antiWindup: 'clamp', uMin: 0, uMax: 1 }, TS);
     const { layout, m } = closedLoopMatrix(discreteLoop(lin, { tsS: TS, delaySamples: 3, pi, sensorFilterHz: 30e3 }));
-    expect(layout).toEqual({ size: 2 + 1 + 2 + 3, x: 0, held: -1, filter: 2, ePrev: 3, pi: 4, delay: 5 });
+    expect(layout).toEqual({ size: 2 + 1 + 1 + 3, x: 0, held: -1, filter: 2, pi: 3, delay: 4 });
     // The delay line shifts: q2⁺ = q1, q3⁺ = q2; the plant is driven by the oldest slot q3.
-    expect(m[6 * 8 + 5]).toBe(1);
-    expect(m[7 * 8 + 6]).toBe(1);
-    expect(m[0 * 8 + 7]).not.toBe(0);
+    expect(m[5 * 7 + 4]).toBe(1);
+    expect(m[6 * 7 + 5]).toBe(1);
+    expect(m[0 * 7 + 6]).not.toBe(0);
+    // The PI state integrates the error: σ⁺ = σ − y_f.
+    expect(m[3 * 7 + 3]).toBe(1);
+    // Without integral action there is no PI state.
+    const p = closedLoopMatrix(discreteLoop(lin, { tsS: TS, delaySamples: 1, pi: { b0: 0.002, b1: -0.002 } }));
+    expect(p.layout.pi).toBe(-1);
+    expect(p.layout.size).toBe(3);
+  });
+
+  it('one step of the closed-loop map equals the engine\'s velocity-form PI step (piStep) with the same history', () => {
+    const cfg = { basis: 'continuous' as const, kp: 0.002, ki: 60, antiWindup: 'clamp' as const, uMin: -1e9, uMax: 1e9 };
+    const pi = piCoefficients(cfg, TS);
+    const loop = discreteLoop(lin, { tsS: TS, delaySamples: 0, pi });
+    const { layout } = closedLoopMatrix(loop);
+    // Drive both with the same error history: a plant state whose output gives e = −C·x.
+    const st = createPiState(0);
+    const s = new Float64Array(layout.size);
+    const out = new Float64Array(layout.size);
+    let sigma = 0;
+    for (let k = 0; k < 20; k++) {
+      s.fill(0);
+      s[1] = Math.sin(k) / lin.c[1]; // y = C·x = sin k (vC only)
+      s[0] = 0;
+      s[layout.pi] = sigma;
+      closedLoopStep(loop, layout, s, out);
+      const u = piStep(cfg, pi, st, -Math.sin(k));
+      // With no delay the duty applied is u: recover it from the plant row (x⁺ = Ad·x + Bd·u).
+      const duty = (out[0] - loop.ad[0] * s[0] - loop.ad[1] * s[1]) / loop.bd[0];
+      expectClose(duty, u, { abs: 1e-12, what: `u at step ${k}` });
+      sigma = out[layout.pi];
+    }
   });
 
   it('with the demo gains every pole is inside the unit circle and the slowest is the PI zero region', () => {

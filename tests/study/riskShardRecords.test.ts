@@ -21,6 +21,13 @@ describe('wilsonInterval', () => {
     expect(Math.abs(w.hi - hi)).toBeLessThan(6e-5);
   });
 
+  it('is exactly 0 at the bottom with no hits and exactly 1 at the top with all hits', () => {
+    expect(wilsonInterval(0, 1000).lo).toBe(0);
+    expect(wilsonInterval(1000, 1000).hi).toBe(1);
+    // With no hits the upper bound is z²/(n + z²) ≈ 3.84/n.
+    expect(wilsonInterval(0, 1000).hi).toBeCloseTo(1.959963984540054 ** 2 / (1000 + 1.959963984540054 ** 2), 12);
+  });
+
   it('stays inside [0, 1] and contains the estimate', () => {
     for (const [k, n] of [[0, 1], [1, 1], [3, 1000], [1000, 1000]]) {
       const w = wilsonInterval(k, n);

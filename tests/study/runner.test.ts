@@ -140,6 +140,14 @@ describe('study kinds', () => {
     expect(lines[0].result.tEndS).toBeCloseTo(0.01, 6);
   });
 
+  it('a margins study gives the loop margins and their risk rows', async () => {
+    const spec = parseStudySpecObject({ name: 'm', seed: 1, kind: 'margins', grid: { 'pwm.fswHz': [100e3, 300e3] }, outputs: ['pmDeg', 'gmDb', 'stable'] });
+    const r = await runStudy({ spec, scenario: aux, outDir: join(tmp, 'margins'), workers: 1 });
+    expect(r.counts).toEqual({ ok: 2 });
+    expect(r.summary?.risk.map((x) => x.key)).toEqual(['noLoop', 'unstable', 'pmBelowFloor', 'gmBelowFloor', 'any']);
+    expect(readFileSync(join(tmp, 'margins', CSV_FILE), 'utf8').split('\n')[0]).toBe('index,seed,params.pwm.fswHz,status,pmDeg,gmDb,stable');
+  });
+
   it('reachable heat at the ladder end: a build hotter than nominal reaches no more heat than its Tj allows', async () => {
     const spec = parseStudySpecObject({
       name: 'heat',
@@ -192,7 +200,8 @@ function killWhen(child: ReturnType<typeof spawn>, file: string, lines: number, 
 }
 
 describe('the study command as a process', () => {
-  const LONG = { ...SMALL, name: 'long', random: { ...SMALL.random, samples: 120 } };
+  const LONG = { ...SMALL, name: 'long', random: { ...SMALL.random, samples: 100 } };
+  const TOTAL = 200;
   const specFile = join(tmp, 'long.yaml');
   let reference: Record<string, string>;
   beforeAll(async () => {
@@ -201,43 +210,37 @@ describe('the study command as a process', () => {
     reference = readAll(join(tmp, 'long-ref'));
   });
 
-  it('resumes after SIGKILL without losing a finished sample or repeating one', async () => {
+  it('resumes after SIGKILL and after Ctrl-C (exit 130) without losing a finished sample or repeating one', async () => {
     const out = join(tmp, 'killed');
     const results = join(out, RESULTS_FILE);
-    const killed = await spawnStudy(['cases/buck-aux-48v.yaml', '--spec', specFile, '--out', out, '--workers', '1'], (c) => killWhen(c, results, 20, 'SIGKILL'));
+    const args = ['cases/buck-aux-48v.yaml', '--spec', specFile, '--out', out];
+    const killed = await spawnStudy([...args, '--workers', '1'], (c) => killWhen(c, results, 12, 'SIGKILL'));
     expect(killed.signal).toBe('SIGKILL');
     const before = readFileSync(results, 'utf8');
     const done = new Map<number, string>();
     for (const l of before.split('\n').slice(0, -1)) done.set(JSON.parse(l).index, `${l}\n`);
-    expect(done.size).toBeGreaterThanOrEqual(20);
-    expect(done.size).toBeLessThan(240);
+    expect(done.size).toBeGreaterThanOrEqual(12);
+    expect(done.size).toBeLessThan(TOTAL);
     // A kill can cut the last write short: simulate that if this one did not.
-    if (before.endsWith('\n')) appendFileSync(results, '{"index":239,"seed":12,"par');
+    if (before.endsWith('\n')) appendFileSync(results, `{"index":${TOTAL - 1},"seed":12,"par`);
 
-    const resumed = await spawnStudy(['cases/buck-aux-48v.yaml', '--spec', specFile, '--out', out, '--workers', '2', '--no-progress']);
-    expect(resumed.err).toContain('dropped a cut-short last line');
+    // Second run: resumes (dropping the cut line), then is stopped with Ctrl-C.
+    const interrupted = await spawnStudy([...args, '--workers', '1'], (c) => killWhen(c, results, done.size + 12, 'SIGINT'));
+    expect(interrupted.code).toBe(130);
+    expect(interrupted.err).toContain('dropped a cut-short last line');
+    expect(interrupted.err).toMatch(new RegExp(`interrupted: \\d+ of ${TOTAL} samples are in .*results\\.jsonl; run the same command again to resume`));
+    const middle = readFileSync(results, 'utf8');
+    expect(middle.endsWith('\n')).toBe(true);
+    const n = middle.split('\n').length - 1;
+    expect(n).toBeGreaterThan(done.size);
+
+    const resumed = await spawnStudy([...args, '--workers', '2', '--no-progress']);
     expect(resumed.code).toBe(0);
-    expect(resumed.out).toContain(`240 samples (kind point), ${240 - done.size} computed, ${done.size} already done`);
-    const after = readFileSync(results, 'utf8');
-    const lines = after.split('\n').slice(0, -1);
-    expect(lines).toHaveLength(240);
-    expect(new Set(lines.map((l) => JSON.parse(l).index)).size).toBe(240);
+    expect(resumed.out).toContain(`${TOTAL} samples (kind point), ${TOTAL - n} computed, ${n} already done`);
+    const lines = readFileSync(results, 'utf8').split('\n').slice(0, -1);
+    expect(lines).toHaveLength(TOTAL);
+    expect(new Set(lines.map((l) => JSON.parse(l).index)).size).toBe(TOTAL);
     for (const [i, line] of done) expect(`${lines[i]}\n`).toBe(line);
-    expect(readAll(out)).toEqual(reference);
-  });
-
-  it('Ctrl-C stops dispatch, writes what is in flight and exits 130 with a note; the same command resumes', async () => {
-    const out = join(tmp, 'sigint');
-    const results = join(out, RESULTS_FILE);
-    const first = await spawnStudy(['cases/buck-aux-48v.yaml', '--spec', specFile, '--out', out, '--workers', '1'], (c) => killWhen(c, results, 20, 'SIGINT'));
-    expect(first.code).toBe(130);
-    expect(first.err).toMatch(/interrupted: \d+ of 240 samples are in .*results\.jsonl; run the same command again to resume/);
-    const text = readFileSync(results, 'utf8');
-    expect(text.endsWith('\n')).toBe(true);
-    const n = text.split('\n').length - 1;
-    const second = await spawnStudy(['cases/buck-aux-48v.yaml', '--spec', specFile, '--out', out, '--workers', '2', '--no-progress']);
-    expect(second.code).toBe(0);
-    expect(second.out).toContain(`${240 - n} computed, ${n} already done`);
     expect(readAll(out)).toEqual(reference);
   });
 

@@ -87,3 +87,15 @@ describe('parseStudySpecObject', () => {
     expect(() => parseStudySpec('name: a\nseed: [1\n')).toThrow(/line \d+/);
   });
 });
+
+describe('the README', () => {
+  it('its study spec example is a valid spec', () => {
+    const readme = readFileSync(new URL('../../README.md', import.meta.url), 'utf8');
+    const at = readme.indexOf('**Spec.**');
+    const block = /```yaml\n([\s\S]*?)```/.exec(readme.slice(at));
+    expect(block).not.toBeNull();
+    const s = parseStudySpec(block![1]);
+    expect(s.total).toBe(5 * 3 * 1000);
+    expect(s.deviceSpread?.achievableHeat).toBe(true);
+  });
+});

@@ -39,6 +39,7 @@ async function drive(sim: Simulation, io: Io, stopRequested: () => boolean): Pro
   const tEnd = sim.tEndS;
   let stepS = tEnd / 1000;
   let nextTenth = 1;
+  let shown = false;
   while (!sim.done && !stopRequested()) {
     const c0 = performance.now();
     sim.advanceUntil(Math.min(sim.t + stepS, tEnd));
@@ -47,7 +48,9 @@ async function drive(sim: Simulation, io: Io, stopRequested: () => boolean): Pro
     stepS *= Math.min(Math.max(CHUNK_WALL_MS / Math.max(chunkMs, 0.1), 0.25), 4);
     const wallMs = performance.now() - t0;
     const frac = sim.t / tEnd;
-    if (wallMs > PROGRESS_AFTER_MS && frac * 10 >= nextTenth) {
+    // Once the run has taken a second: a first line, then one per 10 % of the simulated time.
+    if (wallMs > PROGRESS_AFTER_MS && (!shown || frac * 10 >= nextTenth)) {
+      shown = true;
       nextTenth = Math.floor(frac * 10) + 1;
       io.err(`run: ${Math.round(100 * frac)} % — ${sim.t.toPrecision(4)} of ${tEnd} s simulated in ${(wallMs / 1e3).toFixed(1)} s wall (${(sim.t / (wallMs / 1e3)).toPrecision(3)}× real time)\n`);
     }

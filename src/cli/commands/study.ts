@@ -155,6 +155,7 @@ Examples:
         process.off('SIGINT', onSignal);
         process.off('SIGTERM', onSignal);
       }
+      if (result.droppedPartialLine) io.err('note: dropped a cut-short last line left by the previous run; its sample is computed again\n');
       const where = shard && shard.n > 1 ? ` shard ${shard.k}/${shard.n}` : '';
       const done = result.resumed + result.computed;
       if (result.interrupted)
@@ -162,14 +163,13 @@ Examples:
           `interrupted: ${done} of ${result.shardTotal} samples${where} are in ${join(outDir, 'results.jsonl')}; run the same command again to resume`,
           EXIT_INTERRUPTED,
         );
-      if (result.droppedPartialLine) io.err('note: dropped a cut-short last line from the previous run; that sample was recomputed\n');
       const resumedText = result.resumed > 0 ? `, ${result.resumed} already done` : '';
       const speed = result.computed > 0 ? ` in ${result.elapsedS.toFixed(1)} s (${rateText(result.samplesPerS)} samples/s on ${workers} worker${workers === 1 ? '' : 's'})` : '';
       io.out(`study ${spec.name} on ${scenario.name}${where}: ${result.shardTotal} samples (kind ${spec.kind}), ${result.computed} computed${resumedText}${speed}\n`);
       const counts = Object.entries(result.counts).map(([k, v]) => `${k} ${v}`).join(', ');
       io.out(`  status: ${counts}\n`);
       if (result.summary) {
-        io.out(renderRiskTable(result.summary));
+        io.out(renderRiskTable(result.summary, spec.kind));
         io.out(`\nwrote results.jsonl, results.csv, summary.json, report.html in ${outDir}\n`);
         if (result.summary.risk.some((r) => r.count > 0)) io.err(`note: some builds cross a limit. ${HARDWARE_NOTICE}\n`);
       } else io.out(`wrote results.jsonl, results.csv in ${outDir}; combine the shards with: lossdial study-merge <shard dirs> --out <dir>\n`);

@@ -24,7 +24,7 @@ export function register(program: Command): void {
         throw e;
       }
       io.out(`merged ${dirs.length} director${dirs.length === 1 ? 'y' : 'ies'}: ${merged.total} samples\n`);
-      if (merged.summary) io.out(renderRiskTable(merged.summary));
+      if (merged.summary) io.out(renderRiskTable(merged.summary, merged.kind));
       io.out(`\nwrote results.jsonl, results.csv, summary.json, report.html in ${opts.out}\n`);
     });
 }

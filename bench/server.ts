@@ -1,0 +1,102 @@
+/**
+ * Live server under load: 20 concurrent sessions of the cabin warm-up demo at 100× real time for
+ * about 10 s of wall time. Reports the frame rate each session receives (target 20–30 frames/s
+ * whatever the speed), the simulated speed each achieves, and the server's CPU use
+ * (process.cpuUsage of this process; the websocket clients run in a child process). Printed, never
+ * asserted.
+ */
+import { spawn } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
+import { startServer } from '../src/server/server.ts';
+import type { BenchResult } from './types.ts';
+
+const SESSIONS = 20;
+const SPEED = 100;
+const WALL_S = 10;
+const TARGET_FRAMES_PER_S = 20;
+
+interface ClientReport {
+  wallS: number;
+  sessions: Array<{ frames: number; framesPerS: number; simSpeed: number; reportedSpeed: number; kBytesPerS: number; merged: number; droppedRecords: number; errors: number }>;
+}
+
+const stats = (xs: number[]) => ({
+  min: Math.min(...xs),
+  mean: xs.reduce((a, b) => a + b, 0) / xs.length,
+  max: Math.max(...xs),
+});
+
+export async function benchServer(): Promise<BenchResult> {
+  const server = await startServer({ port: 0, maxSessions: SESSIONS + 4, log: () => undefined });
+  try {
+    const script = fileURLToPath(new URL('./serverClients.mjs', import.meta.url));
+    const child = spawn(process.execPath, [script, `${server.url.replace(/^http/, 'ws')}ws`, String(SESSIONS), String(WALL_S), String(SPEED)], {
+      stdio: ['ignore', 'pipe', 'inherit'],
+    });
+    let out = '';
+    let cpu0: NodeJS.CpuUsage | undefined;
+    let mem0 = 0;
+    let cpu1: NodeJS.CpuUsage | undefined;
+    let t0 = 0;
+    let t1 = 0;
+    let peakRss = 0;
+    const sampler = setInterval(() => (peakRss = Math.max(peakRss, process.memoryUsage().rss)), 250);
+    const report = await new Promise<ClientReport>((resolve, reject) => {
+      child.stdout.on('data', (d: Buffer) => {
+        out += d.toString();
+        if (!cpu0 && out.includes('started\n')) {
+          cpu0 = process.cpuUsage();
+          t0 = performance.now();
+          mem0 = process.memoryUsage().rss;
+        }
+        const nl = out.lastIndexOf('}\n');
+        if (nl >= 0 && !cpu1) {
+          cpu1 = process.cpuUsage(cpu0);
+          t1 = performance.now();
+          try {
+            resolve(JSON.parse(out.slice(out.indexOf('{'), nl + 1)) as ClientReport);
+          } catch (e) {
+            reject(e);
+          }
+        }
+      });
+      child.on('exit', (code) => {
+        if (!cpu1) reject(new Error(`bench clients exited with ${code} before reporting`));
+      });
+    });
+    clearInterval(sampler);
+    const wallS = (t1 - t0) / 1000;
+    const cpuS = (cpu1!.user + cpu1!.system) / 1e6;
+    const fps = stats(report.sessions.map((s) => s.framesPerS));
+    const speed = stats(report.sessions.map((s) => s.simSpeed));
+    const kbps = stats(report.sessions.map((s) => s.kBytesPerS));
+    const value = fps.mean;
+    const details = {
+      sessions: SESSIONS,
+      requestedSpeed: SPEED,
+      wallS,
+      framesPerSessionPerS: fps,
+      simulatedSpeedPerSession: speed,
+      kBytesPerSessionPerS: kbps,
+      serverCpuS: cpuS,
+      serverCpuPercentOfOneCore: (100 * cpuS) / wallS,
+      serverRssMB: { atStart: mem0 / 1e6, peak: peakRss / 1e6 },
+      mergedFrames: report.sessions.reduce((a, s) => a + s.merged, 0),
+      errors: report.sessions.reduce((a, s) => a + s.errors, 0),
+    };
+    console.log(
+      `server: ${SESSIONS} sessions at ${SPEED}× for ${wallS.toFixed(1)} s — frames/s per session ${fps.min.toFixed(1)}/${fps.mean.toFixed(1)}/${fps.max.toFixed(1)} (min/mean/max), ` +
+        `simulated speed ${speed.min.toFixed(0)}/${speed.mean.toFixed(0)}/${speed.max.toFixed(0)}×, server CPU ${details.serverCpuPercentOfOneCore.toFixed(0)} % of one core, peak RSS ${(peakRss / 1e6).toFixed(0)} MB`,
+    );
+    return {
+      id: 'server',
+      label: `live server: frames/s per session (${SESSIONS} sessions at ${SPEED}×)`,
+      value,
+      target: TARGET_FRAMES_PER_S,
+      ratio: value / TARGET_FRAMES_PER_S,
+      details,
+    };
+  } finally {
+    await server.close();
+  }
+}

@@ -1,0 +1,109 @@
+/** Small pieces of the server: command parsing, the frame buffer, the replay merge, the token bucket. */
+import { describe, expect, it } from 'vitest';
+import { FrameBuffer } from '../../src/server/frameBuffer.ts';
+import { COMMAND_TYPES, parseCommand } from '../../src/server/protocol.ts';
+import { TokenBucket } from '../../src/server/rateLimit.ts';
+import { mergeProfile, nextDown, replayScenario } from '../../src/server/replay.ts';
+import { hostChecker, originAllowed } from '../../src/server/security.ts';
+
+describe('parseCommand(text)', () => {
+  const ok = (o: unknown) => parseCommand(JSON.stringify(o));
+  it('accepts one well-formed example of every command', () => {
+    const examples: Record<string, object> = {
+      start: {}, pause: {}, reset: {}, speed: { speed: 'max' }, setDemand: { heatDemandW: 20 }, loadStep: { loadROhm: 0.5 },
+      setInlet: { inletC: 15 }, supervisor: { on: false }, manual: { fswHz: 2e5 }, gains: { kp: 0.001 },
+      loadScenario: { name: 'buck-aux-48v' }, margins: { map: false },
+    };
+    for (const t of COMMAND_TYPES) expect(ok({ v: 1, type: t, ...examples[t] }), t).toMatchObject({ ok: true, command: { type: t } });
+  });
+  it('names the field of a bad value and keeps the id', () => {
+    const r = ok({ v: 1, id: 7, type: 'gains', kp: -1 });
+    expect(r).toMatchObject({ ok: false, code: 'badCommand', id: 7, problems: [{ path: 'kp' }] });
+  });
+  it('rejects a case name that is a path', () => {
+    for (const name of ['../x', 'a/b', '/etc/passwd', '.hidden', 'C:\\x']) expect(ok({ v: 1, type: 'loadScenario', name }).ok, name).toBe(false);
+  });
+});
+
+describe('FrameBuffer(columns, maxPoints)', () => {
+  it('stays bounded however many records arrive, keeping the latest', () => {
+    const fb = new FrameBuffer(['tS', 'x'], 50);
+    let largest = 0;
+    for (let i = 0; i < 100_000; i++) {
+      fb.push({ tS: i, x: i * 2 });
+      largest = Math.max(largest, fb.size);
+    }
+    expect(largest).toBeLessThan(100);
+    const { records, dropped, count } = fb.take();
+    expect(count).toBe(50);
+    expect(records.tS.at(-1)).toBe(99_999);
+    expect(dropped).toBe(100_000 - 50);
+    expect(fb.size).toBe(0);
+  });
+  it('passes non-finite values as null', () => {
+    const fb = new FrameBuffer(['a', 'b'], 10);
+    fb.push({ a: NaN, b: 'x' });
+    expect(fb.take().records).toEqual({ a: [null], b: [null] });
+  });
+});
+
+describe('mergeProfile(base, liveSteps, baseAt0)', () => {
+  it('a constant becomes a step list held from 0', () => {
+    expect(mergeProfile(15, [[40, 30]], 15)).toEqual({ spec: { step: [[0, 15], [40, 30]] }, exact: true });
+    expect(mergeProfile(undefined, [[0, 3], [2, 4]], 1)).toEqual({ spec: { step: [[0, 3], [2, 4]] }, exact: true });
+  });
+  it('a step profile keeps its earlier points only', () => {
+    expect(mergeProfile({ step: [[5, 12], [120, 22]] }, [[50, 30]], 0)).toEqual({ spec: { step: [[5, 12], [50, 30]] }, exact: true });
+    expect(mergeProfile({ step: [[5, 12], [50, 22]] }, [[50, 30]], 0)).toEqual({ spec: { step: [[5, 12], [50, 30]] }, exact: true });
+  });
+  it('a ramp holds its jumps one floating-point step early and says it is inexact', () => {
+    const r = mergeProfile({ ramp: [[0, -5], [100, 5]] }, [[50, 20], [70, 25]], -5);
+    expect(r.exact).toBe(false);
+    const pts = (r.spec as { ramp: number[][] }).ramp;
+    expect(pts[0]).toEqual([0, -5]);
+    expect(pts[1][0]).toBe(nextDown(50));
+    expect(pts[1][1]).toBeCloseTo(0, 9);
+    expect(pts.slice(2)).toEqual([[50, 20], [nextDown(70), 20], [70, 25]]);
+  });
+  it('nextDown(x) is the largest double below x', () => {
+    expect(nextDown(1)).toBe(1 - Number.EPSILON / 2);
+    expect(nextDown(50) < 50 && (50 + nextDown(50)) / 2 === 50).toBe(true);
+  });
+});
+
+describe('replayScenario', () => {
+  it('edits the source in place, keeps comments, sets the duration', () => {
+    const src = '# my case\nname: x\nsim:\n  durationS: 10 # long\nprofiles:\n  heatDemandW: 5\n';
+    const out = replayScenario({ sourceText: src, input: { name: 'x', profiles: { heatDemandW: 5 } }, liveSteps: { heatDemandW: [[1.25, 9]] }, baseAt0: { heatDemandW: 5 }, durationS: 3.5 });
+    expect(out.text).toMatch(/# my case/);
+    expect(out.text).toMatch(/durationS: 3.5 # long/);
+    expect(out.text).toMatch(/heatDemandW: \{ step: \[ \[ 0, 5 \], \[ 1.25, 9 \] \] \}/);
+    expect(out.inexact).toEqual([]);
+  });
+  it('refuses a session that has not run', () => {
+    expect(() => replayScenario({ sourceText: 'name: x', input: {}, liveSteps: {}, baseAt0: {}, durationS: 0 })).toThrow(/not run/);
+  });
+});
+
+describe('TokenBucket(rate, burst)', () => {
+  it('allows the burst, then the rate', () => {
+    const b = new TokenBucket(10, 3, 0);
+    expect([b.take(0), b.take(0), b.take(0), b.take(0)]).toEqual([true, true, true, false]);
+    expect(b.take(100)).toBe(true);
+    expect(b.take(100)).toBe(false);
+  });
+});
+
+describe('origin and host checks', () => {
+  it('same origin only, when an Origin is sent', () => {
+    expect(originAllowed({ headers: { host: 'localhost:8080' } })).toBe(true);
+    expect(originAllowed({ headers: { host: 'localhost:8080', origin: 'http://localhost:8080' } })).toBe(true);
+    expect(originAllowed({ headers: { host: 'localhost:8080', origin: 'http://localhost:9090' } })).toBe(false);
+    expect(originAllowed({ headers: { host: 'localhost:8080', origin: 'file://' } })).toBe(false);
+  });
+  it('a loopback bind answers loopback names only', () => {
+    const ok = hostChecker('127.0.0.1');
+    expect(['localhost:1', '127.0.0.1:8080', '[::1]:8080', 'LOCALHOST'].map(ok)).toEqual([true, true, true, true]);
+    expect(['evil.example:8080', '', undefined, 'a b'].map(ok)).toEqual([false, false, false, false]);
+  });
+});
