@@ -62,7 +62,8 @@ export interface LinearPoint {
 }
 
 const contexts = new WeakMap<Scenario, MarginContext>();
-const CACHE_MAX = 20_000;
+/** Points kept per scenario: enough for the supervisor's band scans and a gain search; maps bypass the cache. */
+const CACHE_MAX = 1024;
 
 /** The (cached) margin context of a scenario. Throws ScenarioError when it has no `control` section. */
 export function marginContext(scenario: Scenario): MarginContext {
@@ -110,12 +111,14 @@ function pointKey(k: Knobs, o: MarginOverrides, dist: readonly string[]): string
 }
 
 /**
- * The linearized steady operating point at the overrides (cached). Throws LinearizationError
- * when there is none: thermal runaway, lost regulation, or not an equilibrium.
+ * The linearized steady operating point at the overrides (cached unless `useCache` is false:
+ * maps visit each point once). Throws LinearizationError when there is none: thermal runaway,
+ * lost regulation, or not an equilibrium.
  */
-export function linearPoint(ctx: MarginContext, o: MarginOverrides = {}, disturbances: readonly DisturbanceName[] = []): LinearPoint {
+export function linearPoint(ctx: MarginContext, o: MarginOverrides = {}, disturbances: readonly DisturbanceName[] = [], useCache = true): LinearPoint {
   const base = ctx.point.plant.knobs;
   const knobs: Knobs = { fswHz: o.fswHz ?? base.fswHz, deadTimeS: o.deadTimeS ?? base.deadTimeS, vDriveV: o.vDriveV ?? base.vDriveV };
+  if (!useCache) return computeLinearPoint(ctx, knobs, o, disturbances);
   const key = pointKey(knobs, o, disturbances);
   const hit = ctx.cache.get(key);
   if (hit instanceof LinearizationError) throw hit;

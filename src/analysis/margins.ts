@@ -300,7 +300,7 @@ export function marginMap(scenario: Scenario, axes: readonly MapAxis[], opts: Ma
     const ctx = ctxFor(vals);
     let lp: LinearPoint;
     try {
-      lp = linearPoint(ctx, o);
+      lp = linearPoint(ctx, o, [], false);
     } catch (e) {
       if (e instanceof LinearizationError) return { values: vals, status: 'refused', reason: e.message };
       throw e;

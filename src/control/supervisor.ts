@@ -11,7 +11,8 @@
  * and cap the loss when a junction nears its limit.
  */
 import { kAt, vthAt } from '../model/device.ts';
-import { electricalPoint } from '../model/electrical.ts';
+import { type ElectricalPoint, electricalPoint } from '../model/electrical.ts';
+import { thermalSteadyState } from '../model/thermal/network.ts';
 import type { Knobs, Plant } from '../model/plant.ts';
 import type { EngineView, SupervisorTask } from '../sim/engine.ts';
 import type { SimSystem } from '../sim/system.ts';
@@ -66,6 +67,8 @@ export interface SupervisorState {
   targetW: number;
   feedForwardW: number;
   maxAchievableW: number;
+  /** Correction (≤ 0) of the predicted Tj cap from the measured junction temperature. */
+  tjTrimW: number;
   binding: Binding;
   shortfallW: number;
   limitedSinceS: number;
@@ -94,18 +97,17 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
   const lim = sc.limits;
   const tjLimitC = Math.min(plant.leg.hs.tjMaxC, plant.leg.ls.tjMaxC) - lim.tjMarginK;
   const st: SupervisorState = {
-    effort: 0, trimW: 0, lossCapW: Infinity, measuredW: 0, targetW: 0, feedForwardW: 0, maxAchievableW: 0,
+    effort: 0, trimW: 0, tjTrimW: 0, lossCapW: Infinity, measuredW: 0, targetW: 0, feedForwardW: 0, maxAchievableW: 0,
     binding: 'none', shortfallW: 0, limitedSinceS: NaN,
   };
   let knobs: Knobs = { fswHz: sc.pwm.fswHz, deadTimeS: sc.pwm.deadTimeS, vDriveV: sc.gateDrive.vDriveV };
   // Actuator positions before quantization: they slew continuously; the hardware sees them quantized.
   const cont: { fswHz: number; deadTimeS: number; vDriveV: number } = { ...knobs };
-  let table: { s: Float64Array; lossW: Float64Array; ladder: Ladder } | undefined;
+  let table: { s: Float64Array; lossW: Float64Array; tjSsC: Float64Array; ladder: Ladder } | undefined;
   let tableKey = '';
   let worstLimited = { shortfallW: 0, binding: 'none' as Binding, tS: 0 };
 
-  const lossOf = (k: Knobs, tjH: number, tjL: number): number => {
-    const ep = electricalPoint(plant, k, tjH, tjL);
+  const quantityOf = (ep: ElectricalPoint): number => {
     if (cfg.controlled === 'electricalLoss') return ep.totalLossW;
     if (cfg.controlled === 'semiconductorLoss') return ep.semiW;
     return ep.semiW + plant.passiveToPlateFraction * ep.passiveW;
@@ -155,17 +157,52 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
     };
   };
 
-  const buildTable = (tjH: number, tjL: number): void => {
+  const buildTable = (tjH: number, tjL: number, inletC: number, flowKgPerS: number): void => {
     const ladder = ladderAt(tjH, tjL);
-    const s = new Float64Array(3 * TABLE_N + 1);
-    const lossW = new Float64Array(3 * TABLE_N + 1);
-    for (let i = 0; i <= 3 * TABLE_N; i++) {
+    const n = 3 * TABLE_N + 1;
+    const s = new Float64Array(n);
+    const lossW = new Float64Array(n);
+    const tjSsC = new Float64Array(n);
+    const net = sys.net;
+    for (let i = 0; i < n; i++) {
       s[i] = i / TABLE_N;
-      lossW[i] = lossOf(knobsAtEffort(ladder, s[i]), tjH, tjL);
+      const ep = electricalPoint(plant, knobsAtEffort(ladder, s[i]), tjH, tjL);
+      lossW[i] = quantityOf(ep);
       // Keep the table monotone so the inversion is unique (a flat stretch inverts to its start).
       if (i > 0 && lossW[i] < lossW[i - 1]) lossW[i] = lossW[i - 1];
+      // Steady junction temperature this effort would settle to: the thermal step response is
+      // monotone, so an effort whose steady Tj is below the limit never overshoots it.
+      if (flowKgPerS > 0 || Number.isFinite(sc.thermal.heatsink.rSinkAmbientKPerW)) {
+        const temps = thermalSteadyState(net, {
+          deviceLossW: [ep.leg.hs.totalW, ep.leg.ls.totalW],
+          sinkExtraW: plant.passiveToPlateFraction * ep.passiveW,
+          inletC, flowKgPerS, ambientC: sc.thermal.ambientC,
+        });
+        tjSsC[i] = Math.max(temps[net.layout.junction[0]], temps[net.layout.junction[1]]);
+      } else tjSsC[i] = Infinity;
     }
-    table = { s, lossW, ladder };
+    table = { s, lossW, tjSsC, ladder };
+  };
+
+  /** Largest effort whose steady junction temperature stays below the limit (interpolated). */
+  const effortCapTj = (limitC: number): number => {
+    const t = table!;
+    if (t.tjSsC[0] > limitC) return 0;
+    for (let i = 1; i < t.s.length; i++) {
+      if (t.tjSsC[i] > limitC) {
+        const a = t.tjSsC[i - 1], b = t.tjSsC[i];
+        return t.s[i - 1] + ((limitC - a) / (b - a)) * (t.s[i] - t.s[i - 1]);
+      }
+    }
+    return t.s[t.s.length - 1];
+  };
+
+  /** Loss on the table at effort s (linear between rows). */
+  const invertEffort = (sv: number): number => {
+    const t = table!;
+    const i = Math.min(Math.floor(sv * TABLE_N), t.s.length - 2);
+    const f = (sv - t.s[i]) * TABLE_N;
+    return t.lossW[i] + f * (t.lossW[i + 1] - t.lossW[i]);
   };
 
   const invert = (lossW: number): number => {
@@ -200,22 +237,23 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       else measured = Number.isNaN(elecLoss) ? NaN : elecLoss - (v.totalLossW - v.semiW);
       st.measuredW = measured;
 
-      const key = `${Math.round(v.tjHsC / 2)}|${Math.round(v.tjLsC / 2)}|${v.vSourceV.toFixed(2)}|${v.loadROhm}|${v.loadIA}`;
-      if (!table || key !== tableKey) { buildTable(v.tjHsC, v.tjLsC); tableKey = key; }
+      const key = `${Math.round(v.tjHsC / 2)}|${Math.round(v.tjLsC / 2)}|${v.vSourceV.toFixed(2)}|${v.loadROhm}|${v.loadIA}|${Math.round(v.inletC)}|${v.flowKgPerS}`;
+      if (!table || key !== tableKey) { buildTable(v.tjHsC, v.tjLsC, v.inletC, v.flowKgPerS); tableKey = key; }
       const t = table!;
       const maxW = t.lossW[t.lossW.length - 1];
       const minW = t.lossW[0];
       st.maxAchievableW = maxW;
 
-      // Junction-temperature constraint: an integrator caps the loss as Tj nears limit − margin.
+      // Junction-temperature constraint, predictive: the effort is capped where the steady Tj
+      // reaches limit − margin (lossCapW is that effort's loss). A slow integrator on the measured
+      // Tj lowers the target further if the prediction proves optimistic near the limit.
       const tjMax = Math.max(v.tjHsC, v.tjLsC);
       const tjErr = tjLimitC - tjMax;
-      if (Number.isFinite(st.lossCapW) || tjErr < 5) {
-        if (!Number.isFinite(st.lossCapW)) st.lossCapW = Math.max(v.totalLossW, minW);
-        st.lossCapW += 2 * tjErr * dt;
-        if (st.lossCapW > maxW * 1.5 && tjErr > 5) st.lossCapW = Infinity;
-        else st.lossCapW = Math.max(st.lossCapW, minW);
-      }
+      const sCapTj = effortCapTj(tjLimitC);
+      const capFromModel = invertEffort(sCapTj);
+      if (tjErr < 2) st.tjTrimW = Math.min(0, st.tjTrimW + 2 * tjErr * dt);
+      else st.tjTrimW = Math.min(0, st.tjTrimW + 0.5 * dt);
+      st.lossCapW = Math.max(capFromModel + st.tjTrimW, minW);
       const demand = Math.max(v.demandW, 0);
       let target = demand;
       let binding: Binding = 'none';

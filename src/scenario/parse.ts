@@ -67,7 +67,24 @@ export function parseText(text: string): unknown {
       }),
     );
   }
-  return doc.toJS();
+  let js: unknown;
+  try {
+    js = doc.toJS({ maxAliasCount: 100 });
+  } catch (e) {
+    // Unresolved aliases and alias bombs surface here as plain errors.
+    throw new ScenarioError([{ path: '(syntax)', message: `cannot resolve the document: ${(e as Error).message.split('\n')[0]}` }]);
+  }
+  if (hasCycle(js, new Set())) throw new ScenarioError([{ path: '(syntax)', message: 'a YAML anchor refers to itself (the document is cyclic)' }]);
+  return js;
+}
+
+function hasCycle(v: unknown, path: Set<unknown>): boolean {
+  if (v === null || typeof v !== 'object') return false;
+  if (path.has(v)) return true;
+  path.add(v);
+  for (const c of Object.values(v as Record<string, unknown>)) if (hasCycle(c, path)) return true;
+  path.delete(v);
+  return false;
 }
 
 function resolveDevice(ref: Record<string, unknown>, where: string, problems: ScenarioProblem[]): DeviceParams | undefined {

@@ -211,7 +211,7 @@ function evaluateRun(ctx: StudyContext, plan: SamplePlan): RunSummary {
   const tjLsPeak = Math.max(tjLs, r.finalTempsC[junction[1]]);
   const headroom = headroomK(ctx, s, tjHsPeak, tjLsPeak);
   const peak = Math.max(tjHsPeak, tjLsPeak);
-  const runaway = peak >= s.limits.runawayTjC || /runaway/i.test(r.cause ?? '');
+  const runaway = r.causeCode === 'thermalRunaway' || peak >= s.limits.runawayTjC;
   return {
     status: r.status,
     cause: r.cause ?? null,

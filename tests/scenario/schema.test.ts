@@ -164,15 +164,13 @@ describe('bad scenarios', () => {
     );
   });
 
-  // Known bug (src/scenario/parse.ts, parseText): an unresolved alias makes yaml's toJS() throw a
-  // ReferenceError, and a self-referencing anchor yields a circular value on which the error
-  // formatting's JSON.stringify throws a TypeError. Found by the property above with another
-  // seed. `it.fails` keeps the suite green while the bug stands and turns red once it is fixed,
-  // so whoever fixes parseText flips these to `it`.
-  it.fails('turn an unresolved YAML alias into a ScenarioError (known bug)', () => {
+  // Unresolved aliases and self-referencing anchors used to escape as ReferenceError/TypeError
+  // (found by the property above with another seed); they are scenario problems like any other.
+  it('turns an unresolved YAML alias into a ScenarioError', () => {
     expect(() => parseScenario('*a')).toThrow(ScenarioError);
   });
-  it.fails('turn a self-referencing YAML anchor into a ScenarioError (known bug)', () => {
+  it('turns a self-referencing YAML anchor into a ScenarioError', () => {
     expect(() => parseScenario('&a [*a]')).toThrow(ScenarioError);
   });
+});
 });
