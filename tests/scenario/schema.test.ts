@@ -173,4 +173,3 @@ describe('bad scenarios', () => {
     expect(() => parseScenario('&a [*a]')).toThrow(ScenarioError);
   });
 });
-});
