@@ -91,6 +91,12 @@ export function marginContext(scenario: Scenario): MarginContext {
   return ctx;
 }
 
+/** The scenario's load as a map/suggestion axis: buck load resistance or current, half-bridge load resistance. */
+export function loadPathOf(scenario: Scenario): 'buck.load.rOhm' | 'buck.load.iA' | 'halfBridge.load.rOhm' {
+  if (scenario.topology === 'halfBridge') return 'halfBridge.load.rOhm';
+  return scenario.buck && 'iA' in scenario.buck.load ? 'buck.load.iA' : 'buck.load.rOhm';
+}
+
 function plantWith(plant: Plant, o: MarginOverrides): Plant {
   if (o.loadROhm === undefined && o.loadIA === undefined && o.vinV === undefined) return plant;
   const c = plant.conv;

@@ -17,7 +17,7 @@ import { type BodeData, approxLoopGainAt, bode, logGridHz, loopGainAt } from './
 
 export { suggestGains, type GainSuggestion, type SuggestOptions } from './suggestGains.ts';
 export { stableFswBand, type StableBand, type StableBandOptions } from './stableBand.ts';
-export { BASES, type MarginContext, type MarginOverrides, marginContext } from './marginContext.ts';
+export { BASES, type MarginContext, type MarginOverrides, loadPathOf, marginContext } from './marginContext.ts';
 
 export interface BasisMargins {
   readonly basis: PiBasis;
@@ -54,6 +54,8 @@ export interface PlantSummary {
   /** Natural frequency and quality factor of a two-state plant (NaN otherwise). */
   readonly f0Hz: number;
   readonly q: number;
+  /** Corner frequencies of a two-state plant with real poles (Q ≤ ½), else empty. */
+  readonly realPolesHz: readonly number[];
   readonly equilibriumResidual: number;
   readonly stepDiscrepancy: number;
 }
@@ -88,6 +90,7 @@ function plantSummary(lp: LinearPoint): PlantSummary {
   let dc = NaN;
   let f0 = NaN;
   let q = NaN;
+  let realPolesHz: number[] = [];
   if (l.n === 2) {
     const [a11, a12, a21, a22] = l.a;
     const det = a11 * a22 - a12 * a21;
@@ -100,11 +103,14 @@ function plantSummary(lp: LinearPoint): PlantSummary {
       f0 = Math.sqrt(det) / (2 * Math.PI);
       q = Math.sqrt(det) / -tr;
     }
+    const disc = tr * tr - 4 * det;
+    if (disc >= 0) realPolesHz = [(-tr - Math.sqrt(disc)) / 2, (-tr + Math.sqrt(disc)) / 2].map((p) => Math.abs(p) / (2 * Math.PI)).sort((a, b) => a - b);
   } else if (l.n === 1) {
     dc = l.d - (l.c[0] * l.b[0]) / l.a[0];
+    realPolesHz = [Math.abs(l.a[0]) / (2 * Math.PI)];
   }
   return {
-    stateNames: l.stateNames, a: [...l.a], b: [...l.b], c: [...l.c], d: l.d, dcGain: dc, f0Hz: f0, q,
+    stateNames: l.stateNames, a: [...l.a], b: [...l.b], c: [...l.c], d: l.d, dcGain: dc, f0Hz: f0, q, realPolesHz,
     equilibriumResidual: l.equilibriumResidual, stepDiscrepancy: l.stepDiscrepancy,
   };
 }
@@ -201,6 +207,8 @@ export interface MapCell {
   readonly values: readonly number[];
   readonly status: 'ok' | 'refused';
   readonly reason?: string;
+  /** Relative Jacobian discrepancy between the two linearization steps (> 1e−3: not smooth here). */
+  readonly stepDiscrepancy?: number;
   readonly bases?: Readonly<Record<PiBasis, MapCellBasis>>;
 }
 
@@ -229,12 +237,6 @@ export function fastPathOf(scenario: Scenario, path: string): keyof MarginOverri
     case 'halfBridge.load.rOhm': return scenario.topology === 'halfBridge' ? 'loadROhm' : undefined;
     default: return undefined;
   }
-}
-
-/** The scenario's load as a map/suggestion axis: buck load resistance or current, half-bridge load resistance. */
-export function loadPathOf(scenario: Scenario): string {
-  if (scenario.topology === 'halfBridge') return 'halfBridge.load.rOhm';
-  return scenario.buck && 'iA' in scenario.buck.load ? 'buck.load.iA' : 'buck.load.rOhm';
 }
 
 /**
@@ -311,7 +313,7 @@ export function marginMap(scenario: Scenario, axes: readonly MapAxis[], opts: Ma
       const m = ev.analysis.margins;
       bases[b] = { crossoverHz: m.crossoverHz, pmDeg: m.pmDeg, gmDb: m.gmDb, phaseCrossoverHz: m.phaseCrossoverHz, maxPoleAbs: ev.analysis.poles.maxAbs, stable: ev.analysis.stable };
     }
-    return { values: vals, status: 'ok', bases };
+    return { values: vals, status: 'ok', stepDiscrepancy: lp.lin.stepDiscrepancy, bases };
   };
   if (axes.length === 1) for (const v of axes[0].values) cells.push(evalCell([v]));
   else for (const va of axes[0].values) for (const vb of axes[1].values) cells.push(evalCell([va, vb]));

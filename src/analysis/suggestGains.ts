@@ -11,7 +11,8 @@
  */
 import type { PiBasis } from '../control/pi.ts';
 import type { Scenario } from '../scenario/parse.ts';
-import { type LinearPoint, type MarginContext, type MarginOverrides, evaluateLoop, gainsIn, linearPoint, marginContext } from './marginContext.ts';
+import { samplePeriodS } from '../sim/system.ts';
+import { type LinearPoint, type MarginContext, type MarginOverrides, evaluateLoop, gainsIn, linearPoint, loadPathOf, marginContext } from './marginContext.ts';
 
 export interface SuggestOptions {
   readonly fswBandHz: readonly [number, number];
@@ -75,7 +76,7 @@ export function suggestGains(scenario: Scenario, opts: SuggestOptions): GainSugg
   const gmFloor = opts.gmFloorDb ?? scenario.supervisor?.gmFloorDb ?? 6;
   const ctx = marginContext(scenario);
   const basis = opts.basis ?? ctx.configuredBasis;
-  const loadField = scenario.topology === 'halfBridge' ? 'halfBridge.load.rOhm' : scenario.buck && 'iA' in scenario.buck.load ? 'buck.load.iA' : 'buck.load.rOhm';
+  const loadField = loadPathOf(scenario);
   const loadKey: 'loadROhm' | 'loadIA' = loadField === 'buck.load.iA' ? 'loadIA' : 'loadROhm';
   const nominalLoad = scenario.topology === 'halfBridge' ? scenario.halfBridge!.load.rOhm : (scenario.buck!.load as Record<string, number>)[loadField === 'buck.load.iA' ? 'iA' : 'rOhm'];
   const loads = opts.loads && opts.loads.length > 0 ? opts.loads : [nominalLoad];
@@ -98,7 +99,7 @@ export function suggestGains(scenario: Scenario, opts: SuggestOptions): GainSugg
   const kScale = dc > 0 && Number.isFinite(dc) ? 1 / dc : 1;
   const perSample = basis === 'perSample';
   const rhoOf = (omegaZ: number): number => (perSample ? omegaZ * ctx.nominalTsS : omegaZ);
-  const fNyqMin = 0.5 / (1 / Math.min(...fsws));
+  const fNyqMin = Math.min(...fsws.map((f) => 0.5 / samplePeriodS(ctx.sys, f)));
 
   const feasible = (kp: number, rho: number): CornerMargins[] | undefined => {
     const cs = evalCorners(ctx, corners, basis, kp, kp * rho, pmFloor, gmFloor);
@@ -119,7 +120,7 @@ export function suggestGains(scenario: Scenario, opts: SuggestOptions): GainSugg
     }
     return { kp: kLo, cs: csLo };
   };
-  // PI zero from 1e-4 to 0.5 of the lowest Nyquist frequency.
+  // PI zero from 1e-4 to 0.5 of the lowest Nyquist frequency (in Hz: fNyq·10^−4 … fNyq·0.5).
   const zeros: number[] = [];
   for (let i = 0; i <= 24; i++) zeros.push(2 * Math.PI * fNyqMin * Math.pow(10, -4 + (i * Math.log10(5e3)) / 24));
   let best: { rho: number; kp: number; cs: CornerMargins[]; score: number } | undefined;
@@ -183,7 +184,7 @@ export function suggestGains(scenario: Scenario, opts: SuggestOptions): GainSugg
   if (binding) {
     const c = cs.find((x) => x.fswHz === binding!.fswHz && x.load === binding!.load)!;
     const what = binding.constraint === 'phaseMargin' ? `phase margin ${c.pmDeg.toFixed(1)}° against the ${pmFloor}° floor` : binding.constraint === 'gainMargin' ? `gain margin ${c.gmDb.toFixed(1)} dB against the ${gmFloor} dB floor` : 'closed-loop stability';
-    explanation.push(`binding corner: fsw ${fmtHz(binding.fswHz)}, ${loadField} ${binding.load} ${loadUnit} — ${what}; 1 % more gain breaks it`);
+    explanation.push(`binding corner: fsw ${fmtHz(binding.fswHz)}, ${loadField} ${binding.load} ${loadUnit} — ${what}${over ? '; 1 % more gain breaks it' : ''}`);
   }
   explanation.push(curHolds ? `the scenario's gains (kp ${cur.kp}, ki ${cur.ki} ${unit}) already hold the floors; worst-case crossover ${fmtHz(worst(currentCorners))}` : `the scenario's gains (kp ${cur.kp}, ki ${cur.ki} ${unit}) fail the floors at ${currentCorners.filter((c) => !c.holds).length} of ${currentCorners.length} corners`);
   return { basis, loadField, pmFloorDeg: pmFloor, gmFloorDb: gmFloor, kp, ki, worstCrossoverHz: best.score, corners: cs, binding, current: { kp: cur.kp, ki: cur.ki, corners: currentCorners, holds: curHolds }, explanation };

@@ -1,5 +1,6 @@
 /** Terminal rendering of loop margins, margin maps and gain suggestions. */
 import type { PiBasis } from '../control/pi.ts';
+import { STEP_DISCREPANCY_WARN } from '../analysis/linearize.ts';
 import type { MapCell, MarginMap, MarginsResult } from '../analysis/margins.ts';
 import type { GainSuggestion } from '../analysis/suggestGains.ts';
 import type { StabilityMargins } from '../analysis/stabilityMargins.ts';
@@ -19,12 +20,13 @@ function kiText(basis: PiBasis, ki: number): string {
 export function renderMargins(r: MarginsResult): string {
   const p = r.point;
   const out: string[] = [];
-  const y = r.regulated === 'vOutV' ? `vOut ${fixed(p.vOutV, 3)} V` : `i ${fixed(p.iMeanA, 3)} A`;
+  const y = r.regulated === 'vOutV' ? `vOut ${fixed(p.vOutV, 3)} V, iL ${fixed(p.iMeanA, 2)} A` : `i ${fixed(p.iMeanA, 3)} A, link ${fixed(p.vBusV, 1)} V`;
   out.push(`loop margins of ${r.scenario} (${r.topology === 'buck' ? 'buck voltage loop' : 'half-bridge current loop'})`);
   out.push(`  fsw ${si(p.fswHz, 'Hz')}, sample period ${si(p.tsS, 's')}, delay ${r.loop.delaySamples} sample${r.loop.delaySamples === 1 ? '' : 's'}, ${r.loop.sensorFilterHz === null ? 'no feedback filter' : `feedback filter ${si(r.loop.sensorFilterHz, 'Hz')}`}`);
-  out.push(`  point: duty ${fixed(p.duty, 4)}, ${y}, iL ${fixed(p.iMeanA, 2)} A, Tj ${fixed(p.tjHsC, 1)} / ${fixed(p.tjLsC, 1)} °C${p.thermal === 'fixed' ? ' (fixed)' : ''}`);
+  out.push(`  point: duty ${fixed(p.duty, 4)}, ${y}, Tj ${fixed(p.tjHsC, 1)} / ${fixed(p.tjLsC, 1)} °C${p.thermal === 'fixed' ? ' (fixed)' : ''}`);
   const pl = r.plant;
-  if (Number.isFinite(pl.f0Hz)) out.push(`  plant: DC gain ${fixed(pl.dcGain, 3)}, resonance ${si(pl.f0Hz, 'Hz')}, Q ${fixed(pl.q, 3)}`);
+  const dyn = pl.realPolesHz.length > 0 ? `real poles at ${pl.realPolesHz.map((f) => si(f, 'Hz')).join(' and ')}` : `resonance ${si(pl.f0Hz, 'Hz')}, Q ${fixed(pl.q, 3)}`;
+  out.push(`  plant (duty → ${r.regulated === 'vOutV' ? 'vOut' : 'i'}): DC gain ${fixed(pl.dcGain, 3)}, ${dyn}`);
   out.push('');
   const head = ['basis', 'kp', 'ki', 'crossover', 'PM', 'GM', 'at', 'max |λ|', 'verdict'];
   const rows = (['continuous', 'perSample'] as const).map((b) => {
@@ -83,6 +85,8 @@ export function renderMap(m: MarginMap): string {
       }
     }
   }
+  const rough = m.cells.filter((c) => (c.stepDiscrepancy ?? 0) > STEP_DISCREPANCY_WARN);
+  if (rough.length > 0) out.push(`  note: at ${rough.length} cell(s) the averaged model is not smooth (linearization steps disagree by up to ${fixed(100 * Math.max(...rough.map((c) => c.stepDiscrepancy!)), 1)} %): margins there are indicative`);
   const refused = m.cells.filter((c) => c.status !== 'ok');
   if (refused.length > 0) out.push(`  ${refused.length} cell(s) have no small-signal loop, e.g. ${refused[0].reason}`);
   return `${out.join('\n')}\n`;

@@ -11,6 +11,20 @@ export function renderRiskTable(summary: StudySummary, kind: string): string {
   const rows = summary.risk.map((r) => [r.label, `${r.count}/${r.n}`, pct(r.fraction), `${pct(r.lo)} … ${pct(r.hi)}`]);
   const cost = Object.entries(summary.cost).map(([f, s]) => [COST_LABELS[f] ?? f, fixed(s.mean, 2), fixed(s.p5, 2), fixed(s.p50, 2), fixed(s.p95, 2), fixed(s.max, 2)]);
   let text = `Risk\n${table([head, ...rows], ['l', 'r', 'r', 'r'])}`;
+  if (summary.cells) {
+    const keys = summary.risk.filter((r) => r.key !== 'any').map((r) => r.key);
+    const cellHead = ['grid cell', ...keys, 'any (95 % interval)'];
+    const cellRows = summary.cells.map((c) => {
+      const byKey = new Map(c.risk.map((r) => [r.key, r]));
+      const any = byKey.get('any');
+      return [
+        Object.entries(c.params).map(([k, v]) => `${k}=${String(v)}`).join(' '),
+        ...keys.map((k) => (byKey.has(k) ? `${byKey.get(k)!.count}/${byKey.get(k)!.n}` : '–')),
+        any ? `${pct(any.fraction)} (${pct(any.lo)} … ${pct(any.hi)})` : '–',
+      ];
+    });
+    text += `\nRisk per grid cell (builds with each hazard)\n${table([cellHead, ...cellRows])}`;
+  }
   if (cost.length > 0) text += `\n${kind === 'point' ? 'Heat margin' : 'Statistics'}\n${table([['quantity', 'mean', 'p5', 'median', 'p95', 'max'], ...cost])}`;
   return text;
 }

@@ -15,6 +15,7 @@ import { type CaseLibrary, caseLibrary } from './cases.ts';
 import { type ConnectionLimits, type ConnectionStats, attachConnection } from './connection.ts';
 import { PROTOCOL_VERSION } from './protocol.ts';
 import { hostChecker, originAllowed } from './security.ts';
+import { TickScheduler } from './scheduler.ts';
 import type { Session } from './session.ts';
 
 export interface ServeOptions {
@@ -58,7 +59,7 @@ export const DEFAULTS = Object.freeze({
   maxPointsPerFrame: 60,
   traceMaxRecords: 100_000,
   maxPayloadBytes: 1024 * 1024,
-  tickBudgetMs: 28,
+  tickBudgetMs: 24,
   limits: {
     maxMessageBytes: 192 * 1024,
     commandsPerSecond: 40,
@@ -99,6 +100,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
   const hostAllowed = hostChecker(host);
 
   const sessions = new Map<string, Session>();
+  const scheduler = new TickScheduler({ frameHz, maxBudgetMs: tickBudgetMs, now: () => performance.now() });
   const stats = new Map<string, ConnectionStats>();
   let pendingConnections = 0;
   let running = 0;
@@ -145,8 +147,9 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
         traceMaxRecords,
         // The tick budget is shared: many running sessions each get a smaller slice, so the event
         // loop keeps its rhythm and every session still gets its frames.
-        budgetMs: () => Math.max(2, Math.min(20, tickBudgetMs / Math.max(1, running))),
+        budgetMs: () => Math.max(0.5, Math.min(20, tickBudgetMs / Math.max(1, running))),
         now: () => performance.now(),
+        schedule: (s) => scheduler.add(s),
         log,
       },
     });
@@ -216,6 +219,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
       closing ??= new Promise<void>((resolve) => {
         for (const ws of wss.clients) ws.terminate();
         for (const s of sessions.values()) s.dispose();
+        scheduler.stop();
         wss.close();
         http.closeAllConnections();
         http.close(() => resolve());

@@ -52,6 +52,8 @@ export interface SessionOptions {
   /** Compute budget of one tick (ms), given the number of running sessions. */
   budgetMs(): number;
   now(): number;
+  /** Register with the server's tick scheduler; returns the unregister function. Without it, call tick() yourself. */
+  schedule?(s: Session): () => void;
   onRunningChange?(running: boolean): void;
   log?(line: string): void;
 }
@@ -68,6 +70,9 @@ export class SessionError extends Error {
 }
 
 const LIVE_EVERY_MS = 250;
+/** Smallest simulated chunk (a few control samples): smaller ones cost more in call overhead than they save. */
+const MIN_CHUNK_S = 1e-5;
+const MAX_CHUNK_S = 5;
 const MARGIN_EVERY_MS = 1000;
 const PAUSED_FRAME_MS = 1000;
 
@@ -89,11 +94,10 @@ export class Session {
   private run!: LiveRun;
   private trace: SimRecord[] = [];
   private frames: FrameBuffer;
-  private timer: NodeJS.Timeout | undefined;
+  private unschedule: (() => void) | undefined;
   private lastTickMs = 0;
   private simTargetS = 0;
   private achievedSpeed = 0;
-  private costMsPerSimS = 5;
   private chunkS = 1e-3;
   private seq = 0;
   private merged = 0;
@@ -128,19 +132,19 @@ export class Session {
     return this.scenario?.name ?? '';
   }
 
-  /** Load the default case and start ticking. */
+  /** Load the default case and join the scheduler. */
   async init(): Promise<void> {
     const text = await this.opts.cases.read(this.opts.defaultCase);
     if (text === undefined) throw new SessionError('unknownCase', `default case ${JSON.stringify(this.opts.defaultCase)} not found`);
     if (this.disposed) return;
     this.install(parseScenario(text), text, 'case');
-    this.timer = setInterval(() => this.tick(), Math.round(1000 / this.opts.frameHz));
+    this.unschedule = this.opts.schedule?.(this);
   }
 
   dispose(): void {
     this.disposed = true;
-    if (this.timer) clearInterval(this.timer);
-    this.timer = undefined;
+    this.unschedule?.();
+    this.unschedule = undefined;
     this.setState(this.state === 'running' ? 'paused' : this.state);
     this.trace = [];
     this.frames.clear();
@@ -492,24 +496,23 @@ export class Session {
     const target = this.speed === 'max' ? Infinity : Math.max(this.simTargetS, t0) + this.speed * wallDtS;
     const start = this.opts.now();
     let budgetHit = false;
+    // Chunk size by observed wall time (the cost of simulated time is spiky — supervisor table
+    // rebuilds, linearizations — so a rate estimate misleads): aim each chunk at a fraction of the
+    // slice, grow or shrink it by at most 2× / 4× per chunk.
+    const aimMs = Math.max(0.25, 0.4 * budgetMs);
     while (sim.t < target && !sim.done && this.trace.length < this.opts.traceMaxRecords) {
       const used = this.opts.now() - start;
       if (used >= budgetMs) { budgetHit = true; break; }
-      const affordable = (0.5 * (budgetMs - used)) / Math.max(this.costMsPerSimS, 1e-6);
-      const chunk = Math.max(1e-6, Math.min(target - sim.t, this.chunkS * 2, affordable, 1));
+      const chunk = Math.min(target - sim.t, this.chunkS);
       const s0 = sim.t;
       const c0 = this.opts.now();
       sim.advanceUntil(s0 + chunk);
       const ms = this.opts.now() - c0;
-      const ds = sim.t - s0;
-      if (ds > 0) {
-        this.costMsPerSimS = 0.7 * this.costMsPerSimS + 0.3 * Math.max(ms / ds, 1e-6);
-        this.chunkS = ds;
-      }
+      if (sim.t - s0 >= 0.5 * chunk) this.chunkS = Math.min(MAX_CHUNK_S, Math.max(MIN_CHUNK_S, this.chunkS * Math.min(Math.max(aimMs / Math.max(ms, 0.02), 0.25), 2)));
     }
     // Falling behind: drop the debt instead of racing to catch up later.
     this.simTargetS = budgetHit || this.speed === 'max' ? sim.t : target;
-    if (wallDtS > 0) this.achievedSpeed = 0.8 * this.achievedSpeed + 0.2 * ((sim.t - t0) / wallDtS);
+    this.noteProgress(sim.t - t0, wallDtS);
     if (sim.status !== 'ok') {
       this.setState('failed');
       this.status(`simulation ${sim.status}: ${sim.cause ?? 'no cause given'}`);
@@ -519,19 +522,47 @@ export class Session {
     }
   }
 
-  /** One pacing step; the timer calls it frameHz times a second (tests may call it directly). */
+  private noteProgress(dsS: number, wallDtS: number): void {
+    if (wallDtS > 0) this.achievedSpeed = 0.8 * this.achievedSpeed + 0.2 * (dsS / wallDtS);
+  }
+
+  /** One pacing step: compute, then a frame (tests call it directly; the server's scheduler calls the two halves). */
   tick(): void {
+    this.computeTick(this.opts.budgetMs());
+    this.frameTick();
+  }
+
+  /** Advance the simulation by up to budgetMs of compute (0: this round has no time for it; it falls behind). */
+  computeTick(budgetMs: number): void {
     if (this.disposed) return;
     try {
       const now = this.opts.now();
-      if (this.state === 'running') this.advance(this.opts.budgetMs(), now);
+      if (this.state === 'running') {
+        if (budgetMs > 0) this.advance(budgetMs, now);
+        else {
+          this.simTargetS = this.run.sim.t;
+          this.noteProgress(0, Math.min(Math.max(now - this.lastTickMs, 0), 250) / 1000);
+        }
+      }
       this.lastTickMs = now;
-      if (this.mapJob) this.stepMapJob();
-      if (this.state === 'running') this.updateMarginAlongRun(now);
-      this.maybeFrame(now);
+      if (this.mapJob && budgetMs > 0) this.stepMapJob();
+      if (this.state === 'running' && budgetMs > 0) this.updateMarginAlongRun(now);
     } catch (e) {
       this.fail(e);
     }
+  }
+
+  frameTick(): void {
+    if (this.disposed) return;
+    try {
+      this.maybeFrame(this.opts.now());
+    } catch (e) {
+      this.fail(e);
+    }
+  }
+
+  get running(): boolean {
+    return this.state === 'running' && !this.disposed;
   }
 
   private live(now: number): Record<string, number | string | null> {

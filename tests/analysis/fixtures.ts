@@ -5,32 +5,17 @@
  */
 import { readFileSync } from 'node:fs';
 import { type Scenario, parseScenario, parseScenarioObject } from '../../src/scenario/parse.ts';
+import { idealDevice } from '../model/fixtures.ts';
 
 export function caseScenario(name: string): Scenario {
   return parseScenario(readFileSync(new URL(`../../cases/${name}.yaml`, import.meta.url), 'utf8'));
 }
 
-/** Device overrides that make the switches near-ideal (see tests/model/fixtures.ts idealDevice). */
-export const IDEAL_DEVICE = {
-  part: 'ld-si100-3m',
-  kAPerV2: 1e6,
-  vth25V: 2,
-  vthTempCoeffVPerK: 0,
-  rSeries25Ohm: 0,
-  rdsTempCoeffPerK: 0,
-  cissF: 1e-15,
-  qgdCoulomb: 1e-18,
-  qgdRefV: 1,
-  qgCoulomb: 1e-15,
-  qgRefV: 10,
-  rGateIntOhm: 0,
-  cossF: 1e-18,
-  diodeVf25V: 1e-3,
-  diodeROhm: 0,
-  diodeVfTempCoeffVPerK: 0,
-  qrr25Coulomb: 0,
-  qrrTempCoeffPerK: 0,
-};
+/** The near-ideal switch of the device tests (tests/model/fixtures.ts) as scenario overrides of a library part. */
+function idealOverrides(): Record<string, unknown> {
+  const { part: _part, label: _label, ...fields } = idealDevice();
+  return { part: 'ld-si100-3m', ...fields };
+}
 
 const THERMAL = {
   devices: {
@@ -52,7 +37,7 @@ export function textbookBuck(): Scenario {
     topology: 'buck',
     pwm: { fswHz: 100e3, deadTimeS: 0, dutyMin: 0.01, dutyMax: 0.99 },
     gateDrive: { vDriveV: 10, rDriverOnOhm: 0, rDriverOffOhm: 0, rGateExtOhm: 0 },
-    devices: { highSide: IDEAL_DEVICE, lowSide: IDEAL_DEVICE },
+    devices: { highSide: idealOverrides(), lowSide: idealOverrides() },
     buck: {
       vinV: 12,
       voutRefV: 6,

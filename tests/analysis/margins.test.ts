@@ -4,7 +4,7 @@ import { sweepValues } from '../../src/analysis/sweep.ts';
 import { ScenarioError } from '../../src/scenario/errors.ts';
 import { withOverrides } from '../../src/scenario/parse.ts';
 import { expectClose } from '../helpers/expectClose.ts';
-import { caseScenario } from './fixtures.ts';
+import { caseScenario, halfBridgeLoop } from './fixtures.ts';
 
 const demo = caseScenario('buck-aux-48v');
 const ps = caseScenario('buck-persample-unstable');
@@ -36,6 +36,18 @@ describe('marginsAt', () => {
       expectClose(a.bases[basis].pmDeg, b.bases[basis].pmDeg, { abs: 1e-9, what: 'PM' });
       expectClose(a.bases[basis].gmDb, b.bases[basis].gmDb, { abs: 1e-9, what: 'GM' });
     }
+  });
+
+  it('half-bridge current loop: margins of the regulated current; a sine reference is linearized at its peak, with a note', () => {
+    const dc = marginsAt(halfBridgeLoop(), { tjHsC: 25, tjLsC: 25 });
+    expect(dc.regulated).toBe('iA');
+    expect(dc.plant.realPolesHz).toHaveLength(2);
+    // Crossover ≈ kp·V_link/(2π·L) = 0.4·48/(2π·0.5 mH) ≈ 6.1 kHz for the integrator-like R–L branch.
+    expectClose(dc.bases.continuous.crossoverHz, (0.4 * 48) / (2 * Math.PI * 500e-6), { rel: 0.05, what: 'crossover' });
+    // 1 A + 3 A·sin: no equilibrium; quasi-static at the 4 A peak, i.e. the DC case's point.
+    const sine = marginsAt(withOverrides(halfBridgeLoop(), { 'halfBridge.reference': { kind: 'sine', amplitudeA: 3, freqHz: 50, offsetA: 1 } }), { tjHsC: 25, tjLsC: 25 });
+    expect(sine.warnings.join(' ')).toMatch(/sine reference: no equilibrium, .*at the reference peak 4 A/);
+    expectClose(sine.bases.continuous.pmDeg, dc.bases.continuous.pmDeg, { abs: 1e-9, what: 'PM at the peak' });
   });
 
   it('Bode data span the Nyquist frequency for both bases, with the continuous approximation', () => {

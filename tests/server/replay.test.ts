@@ -21,8 +21,7 @@ async function drive(caseName: string, script: Array<Record<string, unknown> | n
     budgetMs: () => 1e9, now: () => now,
   });
   await session.init();
-  // No timer in tests: tick by hand.
-  clearInterval((session as unknown as { timer: NodeJS.Timeout }).timer);
+  // No scheduler here: the test ticks by hand.
   await session.handle({ v: 1, type: 'speed', speed: 50 });
   await session.handle({ v: 1, type: 'start' });
   for (const step of script) {

@@ -89,7 +89,7 @@ function progressFor(io: Io, enabled: boolean): StudyProgress | undefined {
 }
 
 function outDirFor(opts: StudyOptions, spec: StudySpec, shard: Shard | undefined): string {
-  const base = opts.out ?? `study-${spec.name}`;
+  const base = opts.out ?? join('out', `study-${spec.name}`);
   return shard && shard.n > 1 ? join(base, `shard-${shard.k}-of-${shard.n}`) : base;
 }
 
@@ -100,7 +100,7 @@ export function register(program: Command): void {
     .argument('<file>', 'scenario file (YAML or JSON)')
     .requiredOption('--spec <study.yaml>', 'study spec (YAML or JSON): name, seed, kind, grid, random, deviceSpread, outputs')
     .option('--workers <n>', `worker threads (default: ${availableParallelism()}, the available cores)`, integerArg('--workers', 1, 1024))
-    .option('--out <dir>', 'output directory (default: study-<name>); rerun with the same --out to resume')
+    .option('--out <dir>', 'output directory (default out/study-<spec name>); rerun with the same --out to resume')
     .option('--shard <K/N|auto/N>', 'run only samples with index mod N = K, into <out>/shard-K-of-N; auto takes K from the batch scheduler array index')
     .option('--set <path=value>', SET_OPTION_HELP, collect, [])
     .option('--no-progress', 'no progress bar or progress lines on stderr')
