@@ -39,7 +39,7 @@ export const STUDY_BENCH_SPEC = {
   name: 'bench-spread',
   seed: 7,
   kind: 'point',
-  random: { samples: 960 },
+  random: { samples: 2000 },
   deviceSpread: {
     at: 'ladderEnd',
     vthShiftV: { dist: 'normal', mean: 0, sd: 0.35 },
@@ -54,17 +54,32 @@ export async function benchStudy(): Promise<BenchResult> {
   const scenario = parseScenario(readFileSync(new URL('cases/buck-cabin-warmup.yaml', ROOT), 'utf8'));
   const spec = parseStudySpecObject(STUDY_BENCH_SPEC);
   const tmp = mkdtempSync(join(tmpdir(), 'lossdial-bench-study-'));
-  const rates: Record<number, { steady: number; wall: number; elapsedS: number }> = {};
+  const rates: Record<number, { steady: number; wall: number; elapsedS: number; cpuMsPerSample: number }> = {};
   try {
     // Alternate 1 and 2 workers and keep each one's best round: a transient load on a shared
     // machine then lowers one round, not the ratio.
     for (let round = 0; round < ROUNDS; round++) {
       for (const workers of [1, 2]) {
-        const r = await runStudy({ spec, scenario, outDir: join(tmp, `r${round}w${workers}`), workers });
+        // CPU time of the whole process (all threads) from 30 % done to the end: the cost of a
+        // sample once the workers are started and warm, whatever else shares the machine.
+        let first: { cpu: NodeJS.CpuUsage; done: number } | undefined;
+        let last = { cpu: process.cpuUsage(), done: 0 };
+        const progress = {
+          start: () => undefined,
+          update: (done: number) => {
+            const cpu = process.cpuUsage();
+            if (!first && done >= 0.3 * spec.total) first = { cpu, done };
+            last = { cpu, done };
+          },
+          stop: () => undefined,
+        };
+        const r = await runStudy({ spec, scenario, outDir: join(tmp, `r${round}w${workers}`), workers, progress });
+        const cpuUs = first ? last.cpu.user + last.cpu.system - first.cpu.user - first.cpu.system : NaN;
+        const cpuMsPerSample = first && last.done > first.done ? cpuUs / 1000 / (last.done - first.done) : NaN;
         const best = rates[workers];
-        if (!best || r.steadySamplesPerS > best.steady) rates[workers] = { steady: r.steadySamplesPerS, wall: r.samplesPerS, elapsedS: r.elapsedS };
+        if (!best || r.steadySamplesPerS > best.steady) rates[workers] = { steady: r.steadySamplesPerS, wall: r.samplesPerS, elapsedS: r.elapsedS, cpuMsPerSample };
         console.log(
-          `study: ${spec.total} samples on ${workers} worker${workers === 1 ? ' ' : 's'}: ${r.steadySamplesPerS.toFixed(1)} samples/s steady, ${r.samplesPerS.toFixed(1)} samples/s wall (${r.elapsedS.toFixed(1)} s)`,
+          `study: ${spec.total} samples on ${workers} worker${workers === 1 ? ' ' : 's'}: ${r.steadySamplesPerS.toFixed(1)} samples/s steady, ${r.samplesPerS.toFixed(1)} samples/s wall (${r.elapsedS.toFixed(1)} s), ${cpuMsPerSample.toFixed(2)} CPU ms/sample`,
         );
       }
     }
@@ -92,6 +107,8 @@ export async function benchStudy(): Promise<BenchResult> {
       elapsedS1: rates[1].elapsedS,
       elapsedS2: rates[2].elapsedS,
       cpuCeiling: ceiling,
+      cpuMsPerSample1: rates[1].cpuMsPerSample,
+      cpuMsPerSample2: rates[2].cpuMsPerSample,
     },
   };
 }

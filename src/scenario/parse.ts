@@ -136,13 +136,12 @@ export function parseScenario(text: string): Scenario {
   return parseScenarioObject(parseText(text));
 }
 
-/** Set a dotted path (`pwm.fswHz`, `thermal.devices.highSide.caseSinkKPerW`) in a plain object copy. */
-export function setPath(root: unknown, path: string, value: unknown): unknown {
+/** Set a dotted path in `root` itself (a plain object the caller owns). */
+function setPathInPlace(root: Record<string, unknown>, path: string, value: unknown): void {
   const keys = path.split('.');
   if (keys.some((k) => k === '' || k === '__proto__' || k === 'constructor' || k === 'prototype'))
     throw new ScenarioError([{ path, message: 'not a valid field path' }]);
-  const copy = structuredClone(root) as Record<string, unknown>;
-  let node: Record<string, unknown> = copy;
+  let node: Record<string, unknown> = root;
   for (let i = 0; i < keys.length - 1; i++) {
     const k = keys[i];
     const next = node[k];
@@ -152,13 +151,20 @@ export function setPath(root: unknown, path: string, value: unknown): unknown {
     node = node[k] as Record<string, unknown>;
   }
   node[keys[keys.length - 1]] = value;
+}
+
+/** Set a dotted path (`pwm.fswHz`, `thermal.devices.highSide.caseSinkKPerW`) in a plain object copy. */
+export function setPath(root: unknown, path: string, value: unknown): unknown {
+  const copy = structuredClone(root) as Record<string, unknown>;
+  setPathInPlace(copy, path, value);
   return copy;
 }
 
 /** A variant of a scenario with some fields replaced (sweeps, --set, studies). Re-validated. */
 export function withOverrides(scenario: Scenario, patch: Readonly<Record<string, unknown>>): Scenario {
-  let input = scenario.input;
-  for (const [path, value] of Object.entries(patch)) input = setPath(input, path, value);
+  // One copy for the whole patch: studies apply a dozen device fields per sample.
+  const input = structuredClone(scenario.input) as Record<string, unknown>;
+  for (const [path, value] of Object.entries(patch)) setPathInPlace(input, path, structuredClone(value));
   return parseScenarioObject(input);
 }
 

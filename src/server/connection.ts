@@ -80,7 +80,8 @@ export function attachConnection(ws: WebSocket, ctx: ConnectionContext): { sessi
     stats.messagesSent++;
     ws.send(JSON.stringify(msg), (err) => {
       if (isFrame) framesInFlight--;
-      if (err && !closed) ctx.log(`session ${id}: send failed: ${err.message}`);
+      // A client that went away mid-send is not worth a log line; anything else is.
+      if (err && !closed && ws.readyState === WebSocket.OPEN) ctx.log(`session ${id}: send failed: ${err.message}`);
     });
   };
 

@@ -43,6 +43,8 @@ export interface RunningServer {
   readonly port: number;
   readonly http: Server;
   readonly sessions: ReadonlyMap<string, Session>;
+  /** The pacing loop (its compute budget and load, for tests and the benchmark). */
+  readonly scheduler: TickScheduler;
   /** Per-session transport figures: bytes queued to the client now, frames sent and held back. */
   connectionStats(): Map<string, { bufferedBytes: number; framesSent: number; framesHeld: number; messagesSent: number }>;
   close(): Promise<void>;
@@ -59,7 +61,7 @@ export const DEFAULTS = Object.freeze({
   maxPointsPerFrame: 60,
   traceMaxRecords: 100_000,
   maxPayloadBytes: 1024 * 1024,
-  tickBudgetMs: 24,
+  tickBudgetMs: 32,
   limits: {
     maxMessageBytes: 192 * 1024,
     commandsPerSecond: 40,
@@ -213,6 +215,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
     port: actualPort,
     http,
     sessions,
+    scheduler,
     connectionStats: () =>
       new Map([...stats].map(([id, st]) => [id, { bufferedBytes: st.bufferedBytes(), framesSent: st.framesSent, framesHeld: st.framesHeld, messagesSent: st.messagesSent }])),
     close(): Promise<void> {

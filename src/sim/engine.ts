@@ -279,6 +279,9 @@ export class Simulation {
   private tNextSample = 0;
   private tNextTh: number;
   private tNextRec: number;
+  /** Thermal steps and records sit on the grids k·thDt and k·recDt (no drift from repeated addition). */
+  private kTh = 1;
+  private kRec = 1;
   private tNextSup: number;
   status: SimStatus = 'ok';
   cause: string | undefined;
@@ -723,10 +726,13 @@ export class Simulation {
     if (t >= this.tNextTh - 1e-12) {
       this.thermalStep(this.thTime);
       this.thTime = 0;
-      this.tNextTh = t + this.thDt;
+      while (this.tNextTh <= t + 1e-12) this.tNextTh = ++this.kTh * this.thDt;
       if (!this.held) this.refreshOuts();
     }
-    if (t >= this.tNextRec - 1e-12) { this.emitRecord(); this.tNextRec += this.recDt; }
+    if (t >= this.tNextRec - 1e-12) {
+      this.emitRecord();
+      while (this.tNextRec <= t + 1e-12) this.tNextRec = ++this.kRec * this.recDt;
+    }
     if (supOn && t >= this.tNextSup - 1e-12) this.supervisorTick();
     if (!prof.controlKp.constant || !prof.controlKi.constant) {
       const kp = prof.controlKp.valueAt(t);

@@ -4,7 +4,7 @@
  * study report counts. Pure apart from an optional cache of nominal results, which changes
  * only how fast a sample is computed, never its record.
  */
-import { type OperatingPoint, operatingPoint, pointContext } from '../analysis/operatingPoint.ts';
+import { type OperatingPoint, type PointContext, operatingPoint, pointContext } from '../analysis/operatingPoint.ts';
 import { knobsAtEffort } from '../control/supervisor.ts';
 import { ScenarioError } from '../scenario/errors.ts';
 import type { Scenario } from '../scenario/parse.ts';
@@ -127,10 +127,9 @@ export function pointSummary(ctx: StudyContext, s: Scenario, op: OperatingPoint)
  * tjMaxC − margin without runaway. Loss rises along the ladder, so the feasible efforts form an
  * interval from 0 and bisection finds its end.
  */
-export function achievableHeatW(ctx: StudyContext, s: Scenario): number {
+export function achievableHeatW(ctx: StudyContext, s: Scenario, pc: PointContext = pointContext(s)): number {
   const ladder = ctx.ladder;
   if (!ladder) throw new ScenarioError([{ path: 'supervisor', message: 'required for deviceSpread.achievableHeat' }]);
-  const pc = pointContext(s);
   const at = (effort: number): { ok: boolean; heatW: number } => {
     const op = operatingPoint(pc, knobsAtEffort(ladder, effort));
     return { ok: op.status === 'ok' && headroomK(ctx, s, op.tjHsC, op.tjLsC) >= 0, heatW: op.heatToCoolantW };
@@ -160,13 +159,15 @@ export interface NominalCache {
 function evaluatePoint(ctx: StudyContext, plan: SamplePlan, cache?: NominalCache): PointSummary & Partial<SpreadCost> {
   const { nominal, drawn } = sampleScenarios(ctx, plan);
   const wantHeat = ctx.spec.deviceSpread?.achievableHeat === true;
-  const summary = pointSummary(ctx, drawn, operatingPoint(pointContext(drawn)));
+  const pc = pointContext(drawn);
+  const summary = pointSummary(ctx, drawn, operatingPoint(pc));
   if (!plan.devices) return summary;
   const key = JSON.stringify(paramPatch(ctx, plan));
   let nom = cache?.get(key);
   if (!nom) {
-    nom = pointSummary(ctx, nominal, operatingPoint(pointContext(nominal)));
-    if (wantHeat) nom = { ...nom, achievableHeatW: r7(achievableHeatW(ctx, nominal)) };
+    const npc = pointContext(nominal);
+    nom = pointSummary(ctx, nominal, operatingPoint(npc));
+    if (wantHeat) nom = { ...nom, achievableHeatW: r7(achievableHeatW(ctx, nominal, npc)) };
     cache?.set(key, nom);
   }
   const cost: SpreadCost = {
@@ -178,7 +179,7 @@ function evaluatePoint(ctx: StudyContext, plan: SamplePlan, cache?: NominalCache
     dTjPeakK: r7(summary.tjPeakC - nom.tjPeakC),
   };
   if (wantHeat && nom.achievableHeatW !== undefined) {
-    const a = r7(achievableHeatW(ctx, drawn));
+    const a = r7(achievableHeatW(ctx, drawn, pc));
     cost.achievableHeatW = a;
     cost.nominalAchievableHeatW = nom.achievableHeatW;
     cost.dAchievableHeatW = r7(a - nom.achievableHeatW);

@@ -13,18 +13,15 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Piscina } from 'piscina';
 import { writeFileAtomic, writeJsonAtomic } from '../io/atomic.ts';
-import type { Scenario } from '../scenario/parse.ts';
-import type { SampleRecord } from './evaluate.ts';
-import { RESULT_FIELDS } from './evaluate.ts';
+import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
+import { type Scenario, parseScenarioObject } from '../scenario/parse.ts';
+import { RESULT_FIELDS, type SampleRecord } from './evaluate.ts';
 import { ResultsFileError, parseRecords, readResultsText, resultsCsv, sortedJsonl } from './records.ts';
 import { renderStudyReport } from './report.ts';
 import { type StudySummary, summarize } from './risk.ts';
 import { shardIndexes } from './sampler.ts';
 import type { Shard } from './shard.ts';
-import type { StudySpec } from './spec.ts';
-import { parseStudySpecObject } from './spec.ts';
-import { parseScenarioObject } from '../scenario/parse.ts';
-import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
+import { type StudySpec, parseStudySpecObject } from './spec.ts';
 import { type StudyContext, preflight, studyContext } from './variant.ts';
 import type { StudyWorkerData } from './worker.ts';
 
@@ -33,7 +30,7 @@ export const RESULTS_FILE = 'results.jsonl';
 export const CSV_FILE = 'results.csv';
 export const SUMMARY_FILE = 'summary.json';
 export const REPORT_FILE = 'report.html';
-const FORMAT = 'lossdial-study/1';
+export const FORMAT = 'lossdial-study/1';
 
 /** A study that cannot run or merge as asked (bad directory, other study's results, gaps). */
 export class StudyError extends Error {
@@ -103,7 +100,7 @@ export function prepareStudy(spec: StudySpec, base: Scenario): StudyContext {
   return ctx;
 }
 
-async function readIfExists(path: string): Promise<string | undefined> {
+export async function readIfExists(path: string): Promise<string | undefined> {
   try {
     return await readFile(path, 'utf8');
   } catch (e) {
@@ -194,8 +191,8 @@ export async function runStudy(opts: RunStudyOptions): Promise<RunStudyResult> {
     } catch {
       throw new StudyError(`${manifestPath} is not a study manifest; use another --out`);
     }
-    const differs = (['format', 'specHash', 'scenarioHash', 'total'] as const).filter((k) => old[k] !== manifest[k]);
-    if (JSON.stringify(old.shard ?? null) !== JSON.stringify(manifest.shard)) differs.push('shard' as never);
+    const differs: string[] = (['format', 'specHash', 'scenarioHash', 'total'] as const).filter((k) => old[k] !== manifest[k]);
+    if (JSON.stringify(old.shard ?? null) !== JSON.stringify(manifest.shard)) differs.push('shard');
     if (differs.length > 0)
       throw new StudyError(
         `${outDir} holds results of another study or shard (${differs.join(', ')} differ${differs.length === 1 ? 's' : ''}); use another --out, or delete it to start over`,
@@ -344,67 +341,4 @@ async function computeSamples(
   }
   if (failure !== undefined) throw failure;
   return { computed, interrupted, timing: { t0, t1, tFirst, firstCount } };
-}
-
-/** Read a finished or partial study directory for merging. */
-export async function readStudyDir(dir: string): Promise<{ manifest: StudyManifest; read: ReturnType<typeof readResultsText> }> {
-  const m = await readIfExists(join(dir, MANIFEST_FILE));
-  if (m === undefined) throw new StudyError(`${dir}: no ${MANIFEST_FILE}; not a study output directory`);
-  let manifest: StudyManifest;
-  try {
-    manifest = JSON.parse(m) as StudyManifest;
-  } catch {
-    throw new StudyError(`${join(dir, MANIFEST_FILE)} is not a study manifest`);
-  }
-  if (manifest.format !== FORMAT) throw new StudyError(`${join(dir, MANIFEST_FILE)}: format ${JSON.stringify(manifest.format)}, expected ${FORMAT}`);
-  const text = (await readIfExists(join(dir, RESULTS_FILE))) ?? '';
-  try {
-    return { manifest, read: readResultsText(text, manifest.total, join(dir, RESULTS_FILE)) };
-  } catch (e) {
-    if (e instanceof ResultsFileError) throw new StudyError(e.message);
-    throw e;
-  }
-}
-
-/**
- * Combine shard outputs into one study output, identical to a single-machine run. All inputs
- * must come from the same study (spec and scenario); together they must hold every sample
- * exactly once.
- */
-export async function mergeStudies(dirs: readonly string[], outDir: string): Promise<{ total: number; kind: string; summary: StudySummary | undefined }> {
-  if (dirs.length === 0) throw new StudyError('study-merge: give at least one study directory');
-  const parts = [];
-  for (const d of dirs) parts.push({ dir: d, ...(await readStudyDir(d)) });
-  const first = parts[0].manifest;
-  for (const p of parts.slice(1)) {
-    const differs = (['study', 'specHash', 'scenarioHash', 'total'] as const).filter((k) => p.manifest[k] !== first[k]);
-    if (differs.length > 0) throw new StudyError(`${p.dir} is from another study than ${parts[0].dir} (${differs.join(', ')} differ)`);
-  }
-  const lines = new Map<number, string>();
-  const from = new Map<number, string>();
-  const dups: string[] = [];
-  for (const p of parts) {
-    if (p.read.partial !== undefined) throw new StudyError(`${p.dir}: its results end with a cut-short line; finish that shard first (rerun it with the same --out)`);
-    for (const [i, line] of p.read.lines) {
-      if (lines.has(i)) {
-        dups.push(`${i} (${from.get(i)} and ${p.dir})`);
-        continue;
-      }
-      lines.set(i, line);
-      from.set(i, p.dir);
-    }
-  }
-  if (dups.length > 0) throw new StudyError(`study-merge: ${dups.length} samples appear more than once, e.g. ${dups.slice(0, 3).join('; ')}`);
-  const missing: number[] = [];
-  for (let i = 0; i < first.total; i++) if (!lines.has(i)) missing.push(i);
-  if (missing.length > 0) {
-    const shards = [...new Set(parts.map((p) => p.manifest.shard?.n).filter((n): n is number => n !== undefined))];
-    const hint = shards.length === 1 ? ` (shards ${[...new Set(missing.map((i) => i % shards[0]))].slice(0, 10).join(', ')} of ${shards[0]} incomplete or not given)` : '';
-    throw new StudyError(`study-merge: ${missing.length} of ${first.total} samples missing, first ${missing.slice(0, 5).join(', ')}${hint}`);
-  }
-  await mkdir(outDir, { recursive: true });
-  const manifest: StudyManifest = { ...first, shard: null };
-  await writeJsonAtomic(join(outDir, MANIFEST_FILE), manifest);
-  const summary = await finalizeStudy(outDir, manifest, lines);
-  return { total: first.total, kind: first.kind, summary };
 }

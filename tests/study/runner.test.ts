@@ -10,7 +10,8 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { stringify } from 'yaml';
 import { parseScenario } from '../../src/scenario/parse.ts';
-import { CSV_FILE, MANIFEST_FILE, REPORT_FILE, RESULTS_FILE, SUMMARY_FILE, mergeStudies, runStudy } from '../../src/study/runner.ts';
+import { mergeStudies } from '../../src/study/merge.ts';
+import { CSV_FILE, MANIFEST_FILE, REPORT_FILE, RESULTS_FILE, SUMMARY_FILE, runStudy } from '../../src/study/runner.ts';
 import { parseStudySpecObject } from '../../src/study/spec.ts';
 import { ROOT, cli } from '../cli/helpers.ts';
 

@@ -1,6 +1,7 @@
 /** `lossdial study-merge DIR... --out DIR`: combine shard outputs into one study output. */
 import type { Command } from 'commander';
-import { StudyError, mergeStudies } from '../../study/runner.ts';
+import { mergeStudies } from '../../study/merge.ts';
+import { StudyError } from '../../study/runner.ts';
 import { CliError, ioOf } from '../common.ts';
 import { renderRiskTable } from '../studyText.ts';
 
