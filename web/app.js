@@ -188,6 +188,14 @@ function onFrame(f) {
   const L = f.live;
   $('live-heat').textContent = show(L.heatToCoolantW, 1);
   $('live-loss').textContent = show(L.measuredW ?? L.totalLossW, 1);
+  // The demand may move by itself (the scenario's own profile): follow it unless the user is at the controls.
+  if (typeof L.demandW === 'number' && document.activeElement !== $('demand-input') && document.activeElement !== $('demand-range')) {
+    const d = String(Number(L.demandW.toFixed(2)));
+    if ($('demand-input').value !== d) {
+      $('demand-input').value = d;
+      $('demand-range').value = d;
+    }
+  }
   const supOn = L.supervisorOn === 1;
   if (supOn !== state.supervisorOn) {
     $('supervisor-toggle').checked = supOn;

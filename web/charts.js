@@ -147,6 +147,7 @@ export class LiveCharts {
     if (!force && s.version === this.drawn) return;
     this.drawn = s.version;
     const t = s.col('tS');
+    const tEnd = t.length > 0 ? /** @type {number} */ (t[t.length - 1]) : 1;
     const xTime = { ...axis('simulated time', 's') };
     const M = this.meta;
 
@@ -207,13 +208,22 @@ export class LiveCharts {
     this.plot('chart-loss', loss, { xaxis: xTime, yaxis: axis('loss', 'W') });
 
     const m = s.margin;
+    // Margins are sampled less often than records: hold the last value up to the present time.
+    const mT = m.tS.slice();
+    const mPm = m.pmDeg.slice();
+    const mGm = m.gmDb.slice();
+    if (mT.length > 0 && tEnd > mT[mT.length - 1]) {
+      mT.push(tEnd);
+      mPm.push(mPm[mPm.length - 1]);
+      mGm.push(mGm[mGm.length - 1]);
+    }
     const floor = [{ type: 'line', xref: 'paper', x0: 0, x1: 1, y0: M.pmFloorDeg, y1: M.pmFloorDeg, line: { color: COLORS.floor, width: 1, dash: 'dash' } }];
     const mg = [
-      line('phase margin', m.tS.slice(), m.pmDeg.slice(), COLORS.pm, { mode: 'lines+markers', marker: { size: 3 } }),
-      line('gain margin', m.tS.slice(), m.gmDb.slice(), COLORS.gm, { yaxis: 'y2', mode: 'lines+markers', marker: { size: 3 } }),
+      line('phase margin', mT, mPm, COLORS.pm, { line: { shape: 'hv' } }),
+      line('gain margin', mT, mGm, COLORS.gm, { yaxis: 'y2', line: { shape: 'hv' } }),
     ];
     this.plot('chart-margin', mg, {
-      xaxis: xTime, yaxis: axis('phase margin', '°'),
+      xaxis: { ...xTime, range: [t.length > 0 ? t[0] : 0, tEnd] }, yaxis: axis('phase margin', '°'),
       yaxis2: { ...axis('gain margin', 'dB'), overlaying: 'y', side: 'right', showgrid: false },
       shapes: floor,
       margin: { ...BASE_LAYOUT.margin, r: 50 },

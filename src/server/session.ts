@@ -15,10 +15,11 @@ import { HARDWARE_NOTICE } from '../analysis/cautions.ts';
 import { toCsv } from '../io/csv.ts';
 import { traceColumns, traceRows } from '../sim/runOutput.ts';
 import { ScenarioError } from '../scenario/errors.ts';
-import { type Scenario, parseScenario } from '../scenario/parse.ts';
+import type { Scenario } from '../scenario/parse.ts';
 import type { SimRecord } from '../sim/engine.ts';
 import type { CaseLibrary } from './cases.ts';
 import { FrameBuffer } from './frameBuffer.ts';
+import { parseScenarioShared } from './scenarioCache.ts';
 import { type LiveCaution, liveCautions } from './liveCautions.ts';
 import { type LiveRun, baseValuesAt0, createLiveRun, liveStepsOf } from './liveRun.ts';
 import {
@@ -73,7 +74,7 @@ const LIVE_EVERY_MS = 250;
 /** Smallest simulated chunk (a few control samples): smaller ones cost more in call overhead than they save. */
 const MIN_CHUNK_S = 1e-5;
 const MAX_CHUNK_S = 5;
-const MARGIN_EVERY_MS = 1000;
+const MARGIN_EVERY_MS = 500;
 const PAUSED_FRAME_MS = 1000;
 
 interface MapJob {
@@ -137,7 +138,7 @@ export class Session {
     const text = await this.opts.cases.read(this.opts.defaultCase);
     if (text === undefined) throw new SessionError('unknownCase', `default case ${JSON.stringify(this.opts.defaultCase)} not found`);
     if (this.disposed) return;
-    this.install(parseScenario(text), text, 'case');
+    this.install(parseScenarioShared(text), text, 'case');
     this.unschedule = this.opts.schedule?.(this);
   }
 
@@ -403,7 +404,7 @@ export class Session {
       source = 'text';
     }
     if (this.disposed) return '';
-    const scenario = parseScenario(text);
+    const scenario = parseScenarioShared(text);
     this.install(scenario, text, source);
     return `loaded ${scenario.name}`;
   }
@@ -500,10 +501,11 @@ export class Session {
     // rebuilds, linearizations — so a rate estimate misleads): aim each chunk at a fraction of the
     // slice, grow or shrink it by at most 2× / 4× per chunk.
     const aimMs = Math.max(0.25, 0.4 * budgetMs);
-    while (sim.t < target && !sim.done && this.trace.length < this.opts.traceMaxRecords) {
+    while (sim.t < target - 1e-9 && !sim.done && this.trace.length < this.opts.traceMaxRecords) {
       const used = this.opts.now() - start;
       if (used >= budgetMs) { budgetHit = true; break; }
-      const chunk = Math.min(target - sim.t, this.chunkS);
+      // At least MIN_CHUNK_S, so a sliver left before the target cannot spin without progress.
+      const chunk = Math.max(MIN_CHUNK_S, Math.min(target - sim.t, this.chunkS));
       const s0 = sim.t;
       const c0 = this.opts.now();
       sim.advanceUntil(s0 + chunk);

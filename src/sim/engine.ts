@@ -393,9 +393,10 @@ export class Simulation {
   setInput(name: LiveInput, value: number): void {
     if (!Number.isFinite(value)) throw new Error(`${name}: must be a finite number, got ${value}`);
     this.profiles[name].setFrom(this.t, value);
+    // Exactly what a profile breakpoint at this time does in a replay, nothing more (the next
+    // iteration reads the new value; a hold ends there only if the plant moved), so a session
+    // saved as step profiles replays line for line.
     this.cachedBreakAt = NaN;
-    this.settled = 0;
-    this.held = false;
   }
 
   private supOn(t: number): boolean {

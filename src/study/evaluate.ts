@@ -165,9 +165,10 @@ function evaluatePoint(ctx: StudyContext, plan: SamplePlan, cache?: NominalCache
   const key = JSON.stringify(paramPatch(ctx, plan));
   let nom = cache?.get(key);
   if (!nom) {
-    const npc = pointContext(nominal);
-    nom = pointSummary(ctx, nominal, operatingPoint(npc));
-    if (wantHeat) nom = { ...nom, achievableHeatW: r7(achievableHeatW(ctx, nominal, npc)) };
+    const ns = nominal();
+    const npc = pointContext(ns);
+    nom = pointSummary(ctx, ns, operatingPoint(npc));
+    if (wantHeat) nom = { ...nom, achievableHeatW: r7(achievableHeatW(ctx, ns, npc)) };
     cache?.set(key, nom);
   }
   const cost: SpreadCost = {

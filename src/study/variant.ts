@@ -138,17 +138,35 @@ export function devicePatch(s: Scenario, devices: SamplePlan['devices']): Record
 }
 
 export interface SampleScenarios {
-  /** The sample with nominal devices (grid and random values applied). */
-  nominal: Scenario;
   /** The sample as drawn (the nominal one when there is no device spread). */
   drawn: Scenario;
+  /** The sample with nominal devices (grid and random values applied), built on first use. */
+  nominal(): Scenario;
 }
 
-/** Both scenarios of a sample. Throws ScenarioError when the draws give an invalid scenario. */
+/** A parameter path that can change a device's nominal values, so draws must be relative to the variant. */
+function touchesDevices(path: string): boolean {
+  return path === 'devices' || path.startsWith('devices.') || path === 'thermal' || path.startsWith('thermal.');
+}
+
+/**
+ * Both scenarios of a sample. Throws ScenarioError when the draws give an invalid scenario.
+ * When no grid or random path touches the devices, the draws are relative to the base scenario
+ * and the drawn variant is parsed once, from the base (the same input, so the same scenario).
+ */
 export function sampleScenarios(ctx: StudyContext, plan: SamplePlan): SampleScenarios {
-  const nominal = withOverrides(ctx.base, paramPatch(ctx, plan));
-  const drawn = plan.devices ? withOverrides(nominal, devicePatch(nominal, plan.devices)) : nominal;
-  return { nominal, drawn };
+  const params = paramPatch(ctx, plan);
+  let nominal: Scenario | undefined;
+  const nominalOf = (): Scenario => (nominal ??= withOverrides(ctx.base, params));
+  if (!plan.devices) {
+    const s = nominalOf();
+    return { drawn: s, nominal: () => s };
+  }
+  const relative = Object.keys(params).some(touchesDevices);
+  const drawn = relative
+    ? withOverrides(nominalOf(), devicePatch(nominalOf(), plan.devices))
+    : withOverrides(ctx.base, { ...params, ...devicePatch(ctx.base, plan.devices) });
+  return { drawn, nominal: nominalOf };
 }
 
 /**

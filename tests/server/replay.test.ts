@@ -66,11 +66,9 @@ describe('session replay', () => {
     session.dispose();
   });
 
-  // Known engine issue, reported: Simulation.setInput resets the engine's settled/held state, which a
-  // breakpoint in a replayed profile does not, so a change that leaves the plant where it was
-  // (gains, a supervisor hand-over at the same knobs) resumes sampling in the session but not in the
-  // replay. Removing the two resets from setInput makes this pass; then drop `.fails`.
-  it.fails('gain changes and supervisor hand-overs replay bit for bit', async () => {
+  // Changes that leave the plant where it was (gains, a hand-over at the same knobs) must not
+  // resume sampling in the session unless the replay's breakpoint does too.
+  it('gain changes and supervisor hand-overs replay bit for bit', async () => {
     const { session } = await drive('buck-cabin-warmup', [
       20, { type: 'gains', kp: 0.003, ki: 80 }, 15, { type: 'supervisor', on: false }, 10,
       { type: 'manual', fswHz: 250e3, vDriveV: 8 }, 10, { type: 'supervisor', on: true }, 15,

@@ -196,6 +196,46 @@ describe('floods and slow readers', () => {
   });
 });
 
+describe('failures stay in their session', () => {
+  it('a session whose simulation throws fails alone: an error for it, the others and the server carry on', async () => {
+    const s = await server();
+    const a = await client(s);
+    const b = await client(s);
+    await ready(a);
+    await ready(b);
+    const [idA] = [...s.sessions.keys()];
+    const sessionA = s.sessions.get(idA) as unknown as { run: { sim: { advanceUntil: () => never } } };
+    sessionA.run.sim.advanceUntil = () => {
+      throw new Error('injected fault');
+    };
+    await ask(a, { type: 'speed', speed: 50 });
+    await ask(b, { type: 'speed', speed: 50 });
+    a.send({ type: 'start' });
+    b.send({ type: 'start' });
+    const e = await a.waitFor((m) => m.type === 'error' && m.code === 'sessionFailed', 10_000, 'sessionFailed');
+    expect(e.message).toMatch(/injected fault/);
+    const t0 = (await b.waitFor((m) => m.type === 'frame' && m.state === 'running', 10_000, 'b running')).tS;
+    await b.waitFor((m) => m.type === 'frame' && m.tS > t0 + 5, 10_000, 'b still advancing');
+    // The failed session still answers, and a reset brings it back.
+    expect((await ask(a, { type: 'reset' })).state).toBe('idle');
+    expect((await fetch(`${s.url}api/health`)).status).toBe(200);
+  });
+
+  it('a client that stops answering pings is cut off, and its session and timers go with it', async () => {
+    const s = await server({ limits: { heartbeatMs: 150 } });
+    const ws = new WebSocket(wsUrl(s), { autoPong: false });
+    ws.on('error', () => undefined);
+    const closed = new Promise<number>((r) => ws.on('close', (code) => r(code)));
+    await new Promise<void>((r) => ws.on('open', () => r()));
+    await sleep(100);
+    expect(s.sessions.size).toBe(1);
+    expect(await closed).toBe(1006);
+    await sleep(50);
+    expect(s.sessions.size).toBe(0);
+    expect(s.connectionStats().size).toBe(0);
+  });
+});
+
 describe('generated hostile messages', () => {
   it('1,000 fast-check messages: errors where due, no crash, the server still answers', async () => {
     const s = await server({ limits: { commandsPerSecond: 1e6, commandBurst: 1e6, maxQueuedCommands: 2000 } });
