@@ -27,6 +27,9 @@ const state = {
   rejected: 0,
   reconnectMs: 1500,
   lastMargins: /** @type {any} */ (null),
+  /** The editor holds edits not yet loaded; a reset must not throw them away. */
+  editorDirty: false,
+  loadRequested: false,
   lastMap: /** @type {any} */ (null),
 };
 /** @type {any} */ (window).lossdial = state;
@@ -160,8 +163,12 @@ function onScenario(m) {
   sup.disabled = !m.supervisorAvailable;
   sup.checked = m.supervisorOn;
   setSupervisor(m.supervisorOn);
-  $('scenario-text').value = m.text;
-  showProblemsIdle();
+  if (!state.editorDirty || state.loadRequested) {
+    $('scenario-text').value = m.text;
+    state.editorDirty = false;
+    showProblemsIdle();
+  }
+  state.loadRequested = false;
   charts.setMeta({ regulatedName: m.regulated.name, regulatedUnit: m.regulated.unit, tjLimitC: m.tjLimitC, pmFloorDeg: m.pmFloorDeg, loadKind: m.load.kind });
   if (m.supervisorAvailable === false) $('knob-hint').textContent = '(no supervisor in this scenario)';
 }
@@ -256,6 +263,7 @@ function onStatus(m) {
 /** @param {any} m */
 function onError(m) {
   toast(m.message, true);
+  if (m.ref === 'loadScenario') state.loadRequested = false;
   if (m.problems && (m.ref === 'loadScenario' || m.code === 'badScenario')) showProblems(m.problems);
 }
 
@@ -382,7 +390,10 @@ function wire() {
   });
   $('case-select').addEventListener('change', () => {
     const name = $('case-select').value;
-    if (name) send('loadScenario', { name });
+    if (name) {
+      state.loadRequested = true;
+      send('loadScenario', { name });
+    }
   });
   for (const id of ['dl-replay', 'dl-trace']) {
     $(id).addEventListener('click', (/** @type {Event} */ ev) => {
@@ -395,8 +406,10 @@ function wire() {
   }
   $('btn-margins').addEventListener('click', () => requestMargins());
   $('btn-validate').addEventListener('click', () => void validateText());
+  $('scenario-text').addEventListener('input', () => (state.editorDirty = true));
   $('btn-load-text').addEventListener('click', async () => {
     const text = $('scenario-text').value;
+    state.loadRequested = true;
     send('loadScenario', { text });
   });
   window.addEventListener('resize', () => charts.resize());

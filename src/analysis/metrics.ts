@@ -104,7 +104,8 @@ export function stepMetrics(records: readonly SimRecord[], q: RunMetrics['tracke
       iaeWs: iae,
       rmsErrorW: span > 0 ? Math.sqrt(se / span) : 0,
       bandW: band,
-      limited: seg.some((r) => typeof r.shortfallW === 'number' && r.shortfallW > band),
+      // The first record of a step still carries the previous step's state.
+      limited: seg.slice(1).some((r) => typeof r.shortfallW === 'number' && r.shortfallW > band),
     });
   }
   return steps;

@@ -253,7 +253,9 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       const capFromModel = invertEffort(sCapTj);
       if (tjErr < 2) st.tjTrimW = Math.min(0, st.tjTrimW + 2 * tjErr * dt);
       else st.tjTrimW = Math.min(0, st.tjTrimW + 0.5 * dt);
-      st.lossCapW = Math.max(capFromModel + st.tjTrimW, minW);
+      // The cap binds only when it is below what the ladder can give anyway.
+      const tjCapActive = sCapTj < t.s[t.s.length - 1] - 1e-9 || st.tjTrimW < 0;
+      st.lossCapW = tjCapActive ? Math.max(capFromModel + st.tjTrimW, minW) : Infinity;
       const demand = Math.max(v.demandW, 0);
       let target = demand;
       let binding: Binding = 'none';
@@ -270,7 +272,14 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
         const sTry = invert(target + st.trimW + cfg.trimKiPerS * err * dt);
         const atTop = sTry >= t.s[t.s.length - 1] - 1e-9 && err > 0;
         const atBottom = sTry <= 0 && err < 0;
-        if (!atTop && !atBottom) st.trimW += cfg.trimKiPerS * err * dt;
+        // Conditional integration: no trim while an actuator is still slewing toward its
+        // feed-forward position (the error then is the slew, not model error).
+        const w0 = knobsAtEffort(t.ladder, invert(target + st.trimW));
+        const slewing =
+          Math.abs(w0.fswHz - cont.fswHz) > cfg.fsw.slewHzPerS * cfg.tickS ||
+          Math.abs(w0.deadTimeS - cont.deadTimeS) > cfg.deadTime.slewSPerS * cfg.tickS ||
+          Math.abs(w0.vDriveV - cont.vDriveV) > cfg.gateDrive.slewVPerS * cfg.tickS;
+        if (!atTop && !atBottom && !slewing) st.trimW += cfg.trimKiPerS * err * dt;
         st.trimW = Math.max(Math.min(st.trimW, 0.5 * maxW + 5), -0.5 * maxW - 5);
         sCmd = invert(target + st.trimW);
       }

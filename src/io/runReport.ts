@@ -28,7 +28,7 @@ function columns(records: readonly SimRecord[]): Record<string, Array<number | s
   const keys = [
     'tS', 'demandW', 'heatToCoolantW', 'totalLossW', 'semiLossW', 'hsLossW', 'lsLossW', 'passiveLossW', 'gateDriverW',
     'efficiency', 'yMeasured', 'reference', 'yDevMax', 'duty', 'fswHz', 'deadTimeS', 'vDriveV', 'tjHsC', 'tjLsC', 'heatsinkC',
-    'coolantC', 'inletC', 'measuredW', 'targetW', 'binding',
+    'coolantC', 'inletC', 'measuredW', 'targetW', 'binding', 'pmDeg', 'gmDb',
   ];
   const out: Record<string, Array<number | string>> = {};
   for (const k of keys) if (records.length > 0 && k in records[0]) out[k] = records.map((r) => r[k]);
@@ -87,7 +87,7 @@ ${cautions}
 ${warnings}
 <h2>Charts</h2>
 <div id="heat" class="chart"></div><div id="reg" class="chart"></div><div id="act" class="chart" style="height:420px"></div>
-<div id="temp" class="chart"></div><div id="loss" class="chart"></div>
+<div id="temp" class="chart"></div><div id="loss" class="chart"></div><div id="margin" class="chart"></div>
 <script src="plotly.min.js"></script>
 <script>
 const D = ${data};
@@ -102,6 +102,8 @@ Plotly.newPlot('act',[line(c.fswHz.map(v=>v/1e3),'fsw','#d1495b',{yaxis:'y'}),li
   Object.assign(L('Actuators',''),{grid:{rows:3,columns:1,pattern:'independent'},yaxis:{title:{text:'fsw (kHz)'},domain:[0.70,1]},yaxis2:{title:{text:'dead time (ns)'},domain:[0.36,0.64]},yaxis3:{title:{text:'gate drive (V)'},domain:[0,0.30]}}));
 Plotly.newPlot('temp',[line(c.tjHsC,'junction high side','#d1495b'),line(c.tjLsC,'junction low side','#edae49'),line(c.heatsinkC,'cold plate','#30638e'),line(c.coolantC,'coolant out','#00798c'),line(c.inletC,'coolant in','#7c8796',{line:{dash:'dot',color:'#7c8796',width:1}})],L('Temperatures','temperature (°C)'));
 const st = (y,name,color)=>({x:t,y,name,type:'scatter',mode:'lines',stackgroup:'a',line:{width:0.5,color}});
+if (c.pmDeg) Plotly.newPlot('margin',[line(c.pmDeg,'phase margin','#30638e'),line(c.gmDb,'gain margin','#d1495b',{yaxis:'y2'})],Object.assign(L('Inner-loop margins along the run','phase margin (°)'),{yaxis2:{title:{text:'gain margin (dB)'},overlaying:'y',side:'right'}}));
+else document.getElementById('margin').remove();
 Plotly.newPlot('loss',[st(c.hsLossW,'high side','#d1495b'),st(c.lsLossW,'low side','#edae49'),st(c.passiveLossW,'inductor + capacitors','#30638e'),st(c.gateDriverW,'gate driver','#7c8796')],L('Loss breakdown','power (W)'));
 }
 </script></body></html>

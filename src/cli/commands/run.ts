@@ -12,6 +12,10 @@ import { toCsv } from '../../io/csv.ts';
 import { ScenarioError } from '../../scenario/errors.ts';
 import { Simulation } from '../../sim/engine.ts';
 import { runSummary, traceColumns, traceRows } from '../../sim/runOutput.ts';
+import { runMetrics } from '../../analysis/metrics.ts';
+import { marginsAlongRun } from '../../analysis/marginsAlong.ts';
+import { HARDWARE_NOTICE } from '../../analysis/cautions.ts';
+import { copyPlotlyBeside, renderRunReport } from '../../io/runReport.ts';
 import { supervisorFor, supervisorNotWiredWarning } from '../../sim/supervisorHook.ts';
 import { type SimSystem, buildSystem } from '../../sim/system.ts';
 import { CliError, SET_OPTION_HELP, ScenarioFileError, collect, describeFsError, ioOf, loadScenario, numberArg, writeOutput, type Io } from '../common.ts';
@@ -102,18 +106,65 @@ export async function runScenario(file: string, opts: RunOptions, io: Io): Promi
   }
   const res = sim.finish();
   const summary = runSummary(sys, res, { durationS, engine, warnings: hookWarning ? [hookWarning] : [] });
+  // Heat-loop metrics (tracking per demand step, regulation around actuator moves, zero-demand
+  // penalty, actuator travel) and the loop margins along the trajectory.
+  const heat = runMetrics(scenario, sys.plant, res);
+  const pmFloor = scenario.supervisor?.pmFloorDeg ?? 45;
+  let along: ReturnType<typeof marginsAlongRun> | undefined;
+  if (scenario.control && res.records.length > 0) {
+    along = marginsAlongRun(scenario, res.records, pmFloor);
+    along.samples.forEach((m, i) => {
+      res.records[i].pmDeg = m.pmDeg;
+      res.records[i].gmDb = m.gmDb;
+    });
+  }
+  const fullSummary = {
+    ...summary,
+    heatLoop: {
+      trackedQuantity: heat.trackedQuantity,
+      tracking: heat.heatTracking,
+      regulationAroundMoves: heat.regulation,
+      zeroDemand: heat.zeroDemand ?? null,
+      actuatorTravel: heat.actuatorTravel,
+      heatElsewhereJ: heat.energyJ.heatElsewhere,
+    },
+    marginsAlongRun: along
+      ? { pmFloorDeg: along.pmFloorDeg, minPmDeg: along.minPmDeg, minPmAtS: along.minPmAtS, minGmDb: along.minGmDb, minGmAtS: along.minGmAtS, timeBelowPmFloorS: along.timeBelowPmFloorS, evaluations: along.evaluations }
+      : null,
+  };
   const cols = traceColumns(sys, res.records).map((c) => c[0]);
   const tracePath = join(dir, 'trace.csv');
   const summaryPath = join(dir, 'summary.json');
+  const reportPath = join(dir, 'report.html');
   await writeOutput(tracePath, toCsv(traceRows(sys, res.records), cols));
-  await writeOutput(summaryPath, toJsonText(summary));
+  await writeOutput(summaryPath, toJsonText(fullSummary));
+  try {
+    copyPlotlyBeside(dir);
+  } catch (e) {
+    throw new CliError(`cannot copy plotly.min.js into ${dir}: ${describeFsError(e)}`);
+  }
+  await writeOutput(
+    reportPath,
+    renderRunReport({
+      name: scenario.name,
+      description: scenario.description,
+      status: res.status,
+      cause: res.cause,
+      topology: sys.plant.conv.kind,
+      records: res.records,
+      metrics: heat,
+      cautions: summary.cautions,
+      warnings: summary.warnings,
+      notice: HARDWARE_NOTICE,
+    }),
+  );
 
   const m = summary.metrics;
   const peak = Math.max(m.junctions.highSide.peakC, m.junctions.lowSide.peakC);
   io.out(
     `${scenario.name}: ${res.status}${res.cause ? ` (${res.cause})` : ''}, ${res.tEndS.toPrecision(6)} s simulated; ` +
       `mean efficiency ${pct(m.meanEfficiency)}, loss ${(m.energyJ.lossTotal / Math.max(res.tEndS, 1e-12)).toFixed(2)} W mean, ` +
-      `peak Tj ${peak.toFixed(1)} °C\nwrote ${tracePath} (${res.records.length} rows) and ${summaryPath}\n`,
+      `peak Tj ${peak.toFixed(1)} °C\nwrote ${tracePath} (${res.records.length} rows), ${summaryPath} and ${reportPath}\n`,
   );
   for (const w of summary.warnings) io.err(`warning: ${w}\n`);
   if (summary.cautions.length > 0) {
