@@ -11,9 +11,6 @@
  * Everything a command or a tick does is wrapped: an exception fails this session (state
  * `failed`, an error message) and nothing else.
  */
-import { HARDWARE_NOTICE } from '../analysis/cautions.ts';
-import { toCsv } from '../io/csv.ts';
-import { traceColumns, traceRows } from '../sim/runOutput.ts';
 import { ScenarioError } from '../scenario/errors.ts';
 import type { Scenario } from '../scenario/parse.ts';
 import type { SimRecord } from '../sim/engine.ts';
@@ -35,6 +32,7 @@ import {
   type SessionState,
 } from './protocol.ts';
 import { replayScenario } from './replay.ts';
+import { traceCsvText } from './traceCsv.ts';
 import { type LivePoint, type MapSpec, jsonSafe, mapRow, mapSpecFor, pointMargin, stabilityAt } from './stability.ts';
 
 export interface SessionSink {
@@ -673,8 +671,6 @@ export class Session {
 
   traceCsv(): { text: string; fileName: string } {
     // The same columns and formatting as `lossdial run` writes to trace.csv, so the files compare.
-    const sys = this.run.sys;
-    const cols = traceColumns(sys, this.trace).map((c) => c[0]);
-    return { text: toCsv(traceRows(sys, this.trace), cols), fileName: `${this.scenario.name}-session-trace.csv` };
+    return { text: traceCsvText(this.run.sys, this.trace), fileName: `${this.scenario.name}-session-trace.csv` };
   }
 }

@@ -12,11 +12,10 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { type BrowserContext, type Page, chromium } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { toCsv } from '../../src/io/csv.ts';
 import { parseScenario } from '../../src/scenario/parse.ts';
 import { replayRun, runParts, supervisorWiredForRun } from '../../src/server/liveRun.ts';
 import { type RunningServer, startServer } from '../../src/server/server.ts';
-import { traceColumns, traceRows } from '../../src/sim/runOutput.ts';
+import { traceCsvText } from '../../src/server/traceCsv.ts';
 import { ROOT } from '../cli/helpers.ts';
 
 const CHROMIUM = '/usr/bin/chromium';
@@ -126,8 +125,7 @@ describe.skipIf(!HAVE_CHROMIUM)('the live dashboard in Chromium', () => {
     const sessionLines = readFileSync(tracePath, 'utf8').trimEnd().split('\n');
     const res = replayRun(scenario);
     const { sys } = runParts(scenario);
-    const cols = traceColumns(sys, res.records).map((c) => c[0]);
-    const replayLines = toCsv(traceRows(sys, res.records), cols).trimEnd().split('\n');
+    const replayLines = traceCsvText(sys, res.records).trimEnd().split('\n');
     expect(sessionLines.length).toBeGreaterThan(30);
     expect(replayLines.length - sessionLines.length).toBeLessThanOrEqual(1);
     expect(replayLines.slice(0, sessionLines.length)).toEqual(sessionLines);
