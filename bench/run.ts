@@ -9,11 +9,11 @@ import { fileURLToPath } from 'node:url';
 import { benchMargins } from './margins.ts';
 import { benchOpPoint } from './opPoint.ts';
 import { benchServer } from './server.ts';
-import { benchReplay } from './replay.ts';
+import { benchReplay, benchReplaySupervised } from './replay.ts';
 import { benchStudy } from './study.ts';
 import type { Bench, BenchResult } from './types.ts';
 
-const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint], ['study', benchStudy], ['replay', benchReplay], ['margins', benchMargins], ['server', benchServer]];
+const BENCHES: ReadonlyArray<readonly [string, Bench]> = [['opPoint', benchOpPoint], ['study', benchStudy], ['replay', benchReplay], ['replaySupervised', benchReplaySupervised], ['margins', benchMargins], ['server', benchServer]];
 
 function line(r: BenchResult): string {
   const value = r.value >= 100 ? Math.round(r.value).toString() : r.value.toPrecision(4);
