@@ -40,6 +40,19 @@ export type Binding =
   | 'capRipple'
   | 'allDisabled';
 
+/** What each binding constraint means, for messages. */
+export const BINDING_TEXT: Readonly<Record<Binding, string>> = {
+  none: 'no constraint binds',
+  fswMax: 'switching frequency at its configured maximum',
+  stableBand: 'switching frequency at the edge of the band where the inner loop keeps its margin floors',
+  deadTimeMax: 'dead time at its configured maximum',
+  gateDriveMin: 'gate drive at its configured minimum',
+  overdrive: 'gate drive at the floor that keeps the minimum overdrive over a worst-case threshold at peak current',
+  tjLimit: 'junction temperature at its limit minus margin',
+  capRipple: 'capacitor ripple current at its rating',
+  allDisabled: 'every actuator is disabled',
+};
+
 interface Ladder {
   fswLo: number; fswHi: number; fswHiBinding: Binding;
   deadLo: number; deadHi: number;
@@ -337,7 +350,7 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
     },
     limitation() {
       if (worstLimited.shortfallW <= 0) return undefined;
-      return `demand not met: short by up to ${worstLimited.shortfallW.toFixed(1)} W (at ${worstLimited.tS.toFixed(1)} s), binding constraint ${worstLimited.binding}`;
+      return `demand not met: short by up to ${worstLimited.shortfallW.toFixed(1)} W (at ${worstLimited.tS.toFixed(1)} s), binding constraint ${worstLimited.binding} (${BINDING_TEXT[worstLimited.binding]})`;
     },
   };
   return task;

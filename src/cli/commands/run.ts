@@ -166,6 +166,20 @@ export async function runScenario(file: string, opts: RunOptions, io: Io): Promi
       `mean efficiency ${pct(m.meanEfficiency)}, loss ${(m.energyJ.lossTotal / Math.max(res.tEndS, 1e-12)).toFixed(2)} W mean, ` +
       `peak Tj ${peak.toFixed(1)} °C\nwrote ${tracePath} (${res.records.length} rows), ${summaryPath} and ${reportPath}\n`,
   );
+  if (heat.heatTracking.steps.length > 0) {
+    const lines = [`heat loop (${heat.trackedQuantity}; band ${heat.heatTracking.bandRule}):`];
+    for (const st of heat.heatTracking.steps)
+      lines.push(
+        `  ${st.tStartS.toFixed(0).padStart(6)} s  demand ${st.demandW.toFixed(1).padStart(6)} W → ${st.finalW.toFixed(2).padStart(7)} W` +
+          (st.limited ? `  LIMITED (short ${(st.demandW - st.finalW).toFixed(1)} W)` : `  settled ${Number.isFinite(st.settlingS) ? `${st.settlingS.toFixed(1)} s` : 'no'}, overshoot ${st.overshootPct.toFixed(1)} %`),
+      );
+    const g = heat.regulation;
+    lines.push(`  regulation: max deviation ${g.maxDeviation.toPrecision(3)} ${g.unit} over ${g.moves} actuator moves (settled within ${(g.settleAfterMovesMaxS * 1e3).toFixed(2)} ms)`);
+    if (heat.zeroDemand)
+      lines.push(`  zero demand: efficiency ${(100 * heat.zeroDemand.efficiency).toFixed(2)} % vs best ${(100 * heat.zeroDemand.bestEfficiency).toFixed(2)} % (penalty ${heat.zeroDemand.penaltyPctPoints.toFixed(3)} points)`);
+    if (along) lines.push(`  inner loop along the run: phase margin ≥ ${along.minPmDeg.toFixed(1)}°, gain margin ≥ ${along.minGmDb.toFixed(1)} dB (floor ${along.pmFloorDeg}°)`);
+    io.out(`${lines.join('\n')}\n`);
+  }
   for (const w of summary.warnings) io.err(`warning: ${w}\n`);
   if (summary.cautions.length > 0) {
     for (const c of summary.cautions) io.err(`${c.severity}: ${c.code}: ${c.message}\n`);
