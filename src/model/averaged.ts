@@ -8,7 +8,7 @@
  * Half-bridge states: [i (A, load branch), vLink (V, DC link)].
  *   L·di/dt = v̄_node − vLink/2 − e − R·i,  C·dvLink/dt = (V_dc − vLink)/R_s − i_bus.
  */
-import { type LegInput, type LegResult, evaluateLeg, newLegResult } from './leg.ts';
+import { type LegInput, type LegResult, evaluateLeg, newLegInput, newLegResult, setLegInput } from './leg.ts';
 import { coreLossW, dcrOhm } from './magnetics.ts';
 import type { BuckParams, HalfBridgeParams, Plant } from './plant.ts';
 
@@ -71,20 +71,10 @@ export function newAvgOutputs(): AvgOutputs {
   return { yMeasured: 0, vOutV: 0, iLoadA: 0, pinW: 0, poutW: 0, semiW: 0, gateDriverW: 0, passiveW: 0, totalLossW: 0, pStoreW: 0, capOutRmsA: 0, capInRmsA: 0 };
 }
 
-const legIn: LegInput = { vBusV: 0, iMeanA: 0, vFarV: 0, lH: 1, duty: 0.5, fswHz: 1, deadTimeS: 0, vDriveV: 0, tjHsC: 25, tjLsC: 25 };
+const legIn: LegInput = newLegInput();
 
 function fillLegInput(u: AvgInputs, vBus: number, i: number, vFar: number, lH: number): LegInput {
-  legIn.vBusV = vBus;
-  legIn.iMeanA = i;
-  legIn.vFarV = vFar;
-  legIn.lH = lH;
-  legIn.duty = u.duty;
-  legIn.fswHz = u.fswHz;
-  legIn.deadTimeS = u.deadTimeS;
-  legIn.vDriveV = u.vDriveV;
-  legIn.tjHsC = u.tjHsC;
-  legIn.tjLsC = u.tjLsC;
-  return legIn;
+  return setLegInput(legIn, vBus, i, vFar, lH, u.duty, u, u.tjHsC, u.tjLsC);
 }
 
 /** Buck output voltage and load current from the states (ESR couples them; resistive or current load). */

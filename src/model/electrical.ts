@@ -6,7 +6,7 @@
  * switching, gate and ripple-borne losses (AC copper, core, capacitor ESR) are drawn from the
  * bus. Pin − Pout − ΣPloss then equals ī·(v̄_node − v_far): the residual of the duty solve.
  */
-import { type LegInput, type LegResult, evaluateLeg, newLegResult } from './leg.ts';
+import { type LegInput, type LegResult, evaluateLeg, newLegInput, newLegResult, setLegInput } from './leg.ts';
 import { coreLossW, dcrOhm, deltaBT, peakFluxT } from './magnetics.ts';
 import type { BuckParams, HalfBridgeParams, Knobs, Plant } from './plant.ts';
 
@@ -49,20 +49,10 @@ export interface ElectricalPoint {
   balanceResidual: number;
 }
 
-const legIn: LegInput = { vBusV: 0, iMeanA: 0, vFarV: 0, lH: 1, duty: 0.5, fswHz: 1, deadTimeS: 0, vDriveV: 0, tjHsC: 25, tjLsC: 25 };
+const legIn: LegInput = newLegInput();
 
 function legAt(plant: Plant, k: Knobs, vBus: number, iMean: number, vFar: number, lH: number, duty: number, tjH: number, tjL: number, out: LegResult): LegResult {
-  legIn.vBusV = vBus;
-  legIn.iMeanA = iMean;
-  legIn.vFarV = vFar;
-  legIn.lH = lH;
-  legIn.duty = duty;
-  legIn.fswHz = k.fswHz;
-  legIn.deadTimeS = k.deadTimeS;
-  legIn.vDriveV = k.vDriveV;
-  legIn.tjHsC = tjH;
-  legIn.tjLsC = tjL;
-  return evaluateLeg(plant.leg, legIn, out);
+  return evaluateLeg(plant.leg, setLegInput(legIn, vBus, iMean, vFar, lH, duty, k, tjH, tjL), out);
 }
 
 /**

@@ -55,6 +55,28 @@ export interface LegInput {
   tjLsC: number;
 }
 
+/** Fill a reusable LegInput in place (hot paths allocate nothing). */
+export function setLegInput(
+  out: LegInput, vBusV: number, iMeanA: number, vFarV: number, lH: number, duty: number,
+  knobs: { readonly fswHz: number; readonly deadTimeS: number; readonly vDriveV: number }, tjHsC: number, tjLsC: number,
+): LegInput {
+  out.vBusV = vBusV;
+  out.iMeanA = iMeanA;
+  out.vFarV = vFarV;
+  out.lH = lH;
+  out.duty = duty;
+  out.fswHz = knobs.fswHz;
+  out.deadTimeS = knobs.deadTimeS;
+  out.vDriveV = knobs.vDriveV;
+  out.tjHsC = tjHsC;
+  out.tjLsC = tjLsC;
+  return out;
+}
+
+export function newLegInput(): LegInput {
+  return { vBusV: 0, iMeanA: 0, vFarV: 0, lH: 1, duty: 0.5, fswHz: 1, deadTimeS: 0, vDriveV: 0, tjHsC: 25, tjLsC: 25 };
+}
+
 export interface DeviceLoss {
   conductionW: number;
   diodeW: number;

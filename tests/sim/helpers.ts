@@ -2,6 +2,7 @@
  * Shared helpers for the simulation tests: the demo cases with overrides, a run wrapper, and
  * near-ideal device overrides. Plain data and thin wrappers; nothing here asserts.
  */
+import { idealDevice } from '../model/fixtures.ts';
 import { readFileSync } from 'node:fs';
 import { type Scenario, parseScenario, withOverrides } from '../../src/scenario/parse.ts';
 import { type SimOptions, type SimResult, simulate } from '../../src/sim/engine.ts';
@@ -24,29 +25,12 @@ export function run(sc: Scenario, opts: SimOptions = {}): { sys: SimSystem; res:
 }
 
 /**
- * Device overrides that make a part's non-idealities negligible at tens of volts and amperes
- * (the same values as tests/model/fixtures.ts idealDevice): k = 10⁶ A/V², no series resistance,
- * femto-scale capacitances and charges, a 1 mV diode, no temperature coefficients.
+ * Device overrides that make a part's non-idealities negligible at tens of volts and amperes:
+ * tests/model/fixtures.ts idealDevice without its identity fields (k = 10⁶ A/V², no series
+ * resistance, femto-scale capacitances and charges, a 1 mV diode, no temperature coefficients).
  */
-export const NEAR_IDEAL_DEVICE = {
-  kAPerV2: 1e6,
-  vth25V: 2,
-  vthTempCoeffVPerK: 0,
-  rSeries25Ohm: 0,
-  rdsTempCoeffPerK: 0,
-  cissF: 1e-15,
-  qgdCoulomb: 1e-18,
-  qgdRefV: 1,
-  qgCoulomb: 1e-15,
-  qgRefV: 10,
-  rGateIntOhm: 0,
-  cossF: 1e-18,
-  diodeVf25V: 1e-3,
-  diodeROhm: 0,
-  diodeVfTempCoeffVPerK: 0,
-  qrr25Coulomb: 0,
-  qrrTempCoeffPerK: 0,
-} as const;
+const { part: _part, label: _label, vdsRatedV: _v, lambdaPerV: _l, qrrRefA: _q, tjMaxC: _t, ...idealFields } = idealDevice();
+export const NEAR_IDEAL_DEVICE = Object.freeze(idealFields);
 
 /** Overrides that keep a part as it is but remove every temperature coefficient: losses then do not depend on Tj. */
 export const NO_TEMPCO = {
