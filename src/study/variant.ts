@@ -4,7 +4,7 @@
  * instance's draws applied as field overrides (`devices.highSide.vth25V`, ...) and thermal
  * paths (`thermal.devices.highSide.junctionCase.rKPerW`). Pure; every variant is re-validated.
  */
-import { stableFswBand } from '../analysis/stableBand.ts';
+import { stableBandFor } from '../sim/supervisorHook.ts';
 import { knobsAtEffort } from '../control/supervisor.ts';
 import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
 import { type Scenario, withOverrides } from '../scenario/parse.ts';
@@ -36,11 +36,7 @@ export function supervisorLadder(s: Scenario): Ladder | undefined {
   const sup = s.supervisor;
   if (!sup) return undefined;
   const vgHi = sup.gateDrive.enabled ? sup.gateDrive.maxV : s.gateDrive.vDriveV;
-  let band: [number, number] | undefined = sup.stableBandHz ? [sup.stableBandHz[0], sup.stableBandHz[1]] : undefined;
-  if (sup.fsw.enabled) {
-    const b = stableFswBand(s, { pmFloorDeg: sup.pmFloorDeg, gmFloorDb: sup.gmFloorDb, fswMinHz: sup.fsw.minHz, fswMaxHz: sup.fsw.maxHz, vDriveV: Math.round(vgHi * 2) / 2 });
-    if (b.ok) band = band ? [Math.max(band[0], b.loHz), Math.min(band[1], b.hiHz)] : [b.loHz, b.hiHz];
-  }
+  const band = stableBandFor(s)(vgHi);
   const fswLo = sup.fsw.enabled ? Math.max(sup.fsw.minHz, band?.[0] ?? 0) : s.pwm.fswHz;
   const fswHi = sup.fsw.enabled ? Math.max(fswLo, Math.min(sup.fsw.maxHz, band?.[1] ?? Infinity)) : s.pwm.fswHz;
   return {
