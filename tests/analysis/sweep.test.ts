@@ -35,8 +35,9 @@ describe('sweepValues', () => {
     (from, to, n) => {
       const v = sweepValues(from, to, n);
       expect(v).toHaveLength(n);
-      expect(v[0]).toBe(from);
-      expect(v[n - 1]).toBe(to);
+      // === rather than Object.is: a sweep from −0 may start at +0.
+      expect(v[0] === from).toBe(true);
+      expect(v[n - 1] === to).toBe(true);
       const s = Math.sign(to - from);
       for (let i = 1; i < n; i++) expect(Math.sign(v[i] - v[i - 1]) * s).toBeGreaterThanOrEqual(0);
     },
