@@ -63,12 +63,15 @@ interface Ladder {
 const TABLE_N = 12;
 
 /** Knobs at effort s on a ladder (continuous, monotone in loss by construction of the bounds). */
+function lerpClamped(a: number, b: number, x: number): number {
+  return a + (b - a) * Math.min(Math.max(x, 0), 1);
+}
+
 export function knobsAtEffort(l: Ladder, s: number): Knobs {
-  const f = (a: number, b: number, x: number): number => a + (b - a) * Math.min(Math.max(x, 0), 1);
   return {
-    fswHz: l.enabled[0] ? f(l.fswLo, l.fswHi, s) : l.fswLo,
-    deadTimeS: l.enabled[1] ? f(l.deadLo, l.deadHi, s - 1) : l.deadLo,
-    vDriveV: l.enabled[2] ? f(l.vgHi, l.vgLo, s - 2) : l.vgHi,
+    fswHz: l.enabled[0] ? lerpClamped(l.fswLo, l.fswHi, s) : l.fswLo,
+    deadTimeS: l.enabled[1] ? lerpClamped(l.deadLo, l.deadHi, s - 1) : l.deadLo,
+    vDriveV: l.enabled[2] ? lerpClamped(l.vgHi, l.vgLo, s - 2) : l.vgHi,
   };
 }
 
@@ -85,6 +88,17 @@ export interface SupervisorState {
   binding: Binding;
   shortfallW: number;
   limitedSinceS: number;
+}
+
+/** Equal, or both NaN (an unused load field). */
+function sameNum(a: number, b: number): boolean {
+  return a === b || (Number.isNaN(a) && Number.isNaN(b));
+}
+
+/** Slew toward `wanted` unless it is inside the hysteresis band (0.4 step or 0.2 % of the range). */
+function moveActuator(cur: number, wanted: number, slewPerTick: number, step: number, range: number): number {
+  const band = Math.max(0.4 * step, 0.002 * range);
+  return Math.abs(wanted - cur) < band ? cur : slew(cur, wanted, slewPerTick);
 }
 
 function quantize(v: number, step: number): number {
@@ -117,7 +131,7 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
   // Actuator positions before quantization: they slew continuously; the hardware sees them quantized.
   const cont: { fswHz: number; deadTimeS: number; vDriveV: number } = { ...knobs };
   let table: { s: Float64Array; lossW: Float64Array; tjSsC: Float64Array; ladder: Ladder } | undefined;
-  let tableKey = '';
+  let tableKey: number[] = [];
   let worstLimited = { shortfallW: 0, binding: 'none' as Binding, tS: 0 };
 
   const quantityOf = (ep: ElectricalPoint): number => {
@@ -250,8 +264,13 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       else measured = Number.isNaN(elecLoss) ? NaN : elecLoss - (v.totalLossW - v.semiW);
       st.measuredW = measured;
 
-      const key = `${Math.round(v.tjHsC / 2)}|${Math.round(v.tjLsC / 2)}|${v.vSourceV.toFixed(2)}|${v.loadROhm}|${v.loadIA}|${Math.round(v.inletC)}|${v.flowKgPerS}`;
-      if (!table || key !== tableKey) { buildTable(v.tjHsC, v.tjLsC, v.inletC, v.flowKgPerS); tableKey = key; }
+      // The table is rebuilt when conditions move: junctions by 2 K, inlet by 1 K, source by 10 mV, or any load/flow change.
+      const k0 = Math.round(v.tjHsC / 2), k1 = Math.round(v.tjLsC / 2), k2 = Math.round(v.vSourceV * 100), k6 = Math.round(v.inletC);
+      if (!table || k0 !== tableKey[0] || k1 !== tableKey[1] || k2 !== tableKey[2] || !sameNum(v.loadROhm, tableKey[3]) ||
+          !sameNum(v.loadIA, tableKey[4]) || k6 !== tableKey[5] || v.flowKgPerS !== tableKey[6]) {
+        buildTable(v.tjHsC, v.tjLsC, v.inletC, v.flowKgPerS);
+        tableKey = [k0, k1, k2, v.loadROhm, v.loadIA, k6, v.flowKgPerS];
+      }
       const t = table!;
       const maxW = t.lossW[t.lossW.length - 1];
       const minW = t.lossW[0];
@@ -299,15 +318,11 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       st.feedForwardW = target;
       st.effort = sCmd;
       const want = knobsAtEffort(t.ladder, sCmd);
-      // Slew limits, quantization, and a hysteresis of one and a half steps (or 0.3 % of the
+      // Slew limits, quantization, and a hysteresis of 0.4 step (or 0.2 % of the
       // range) so measurement noise does not dither the actuators.
-      const move = (cur: number, wanted: number, slewPerTick: number, step: number, range: number): number => {
-        const band = Math.max(0.4 * step, 0.002 * range);
-        return Math.abs(wanted - cur) < band ? cur : slew(cur, wanted, slewPerTick);
-      };
-      cont.fswHz = move(cont.fswHz, want.fswHz, cfg.fsw.slewHzPerS * cfg.tickS, cfg.fsw.stepHz, cfg.fsw.maxHz - cfg.fsw.minHz);
-      cont.deadTimeS = move(cont.deadTimeS, want.deadTimeS, cfg.deadTime.slewSPerS * cfg.tickS, cfg.deadTime.stepS, cfg.deadTime.maxS - cfg.deadTime.minS);
-      cont.vDriveV = move(cont.vDriveV, want.vDriveV, cfg.gateDrive.slewVPerS * cfg.tickS, cfg.gateDrive.stepV, cfg.gateDrive.maxV - cfg.gateDrive.minV);
+      cont.fswHz = moveActuator(cont.fswHz, want.fswHz, cfg.fsw.slewHzPerS * cfg.tickS, cfg.fsw.stepHz, cfg.fsw.maxHz - cfg.fsw.minHz);
+      cont.deadTimeS = moveActuator(cont.deadTimeS, want.deadTimeS, cfg.deadTime.slewSPerS * cfg.tickS, cfg.deadTime.stepS, cfg.deadTime.maxS - cfg.deadTime.minS);
+      cont.vDriveV = moveActuator(cont.vDriveV, want.vDriveV, cfg.gateDrive.slewVPerS * cfg.tickS, cfg.gateDrive.stepV, cfg.gateDrive.maxV - cfg.gateDrive.minV);
       knobs = {
         fswHz: quantize(cont.fswHz, cfg.fsw.stepHz),
         deadTimeS: quantize(cont.deadTimeS, cfg.deadTime.stepS),
