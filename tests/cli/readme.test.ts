@@ -2,7 +2,7 @@
  * README examples run as tests: every command in a ```sh/```bash/```console block that starts
  * with `npx lossdial` or `node bin/lossdial.js` is run from the repository root (through bash,
  * so pipes work) and must exit 0, or the code written after it as `# exit N`. In a console
- * transcript, the first line printed must also match the transcript's first output line, so the
+ * example, the first line printed must also match the example's first output line, so the
  * examples cannot drift from the tool's actual output format.
  */
 import { spawn } from 'node:child_process';
