@@ -8,6 +8,7 @@
 import { readFileSync } from 'node:fs';
 import { type Scenario, parseScenario, withOverrides } from '../src/scenario/parse.ts';
 import { type SimResult, simulate } from '../src/sim/engine.ts';
+import { supervisorFor } from '../src/sim/supervisorHook.ts';
 import { buildSystem } from '../src/sim/system.ts';
 import type { BenchResult } from './types.ts';
 
@@ -33,11 +34,12 @@ export function replayScenario(durationS = REPLAY_S): Scenario {
   });
 }
 
-function timed(sc: Scenario, engine?: 'odex'): { wallS: number; cpuS: number; res: SimResult } {
+function timed(sc: Scenario, engine?: 'odex', supervise = false): { wallS: number; cpuS: number; res: SimResult } {
   const sys = buildSystem(sc);
+  const supervisor = supervise ? supervisorFor(sys) : undefined;
   const c0 = process.cpuUsage();
   const t0 = performance.now();
-  const res = simulate(sys, { engine });
+  const res = simulate(sys, { engine, supervisor });
   const wallS = (performance.now() - t0) / 1e3;
   const c = process.cpuUsage(c0);
   return { wallS, cpuS: (c.user + c.system) / 1e6, res };
@@ -95,20 +97,11 @@ export async function benchReplay(): Promise<BenchResult> {
  * replay, same target.
  */
 export async function benchReplaySupervised(): Promise<BenchResult> {
-  const { supervisorFor } = await import('../src/sim/supervisorHook.ts');
   const base = parseScenario(readFileSync(new URL('../cases/buck-cabin-warmup.yaml', import.meta.url), 'utf8'));
   const sc = withOverrides(base, { 'sim.durationS': REPLAY_S });
-  const once = (): { wallS: number; cpuS: number; res: SimResult } => {
-    const sys = buildSystem(sc);
-    const c0 = process.cpuUsage();
-    const t0 = performance.now();
-    const res = simulate(sys, { supervisor: supervisorFor(sys) });
-    const c = process.cpuUsage(c0);
-    return { wallS: (performance.now() - t0) / 1e3, cpuS: (c.user + c.system) / 1e6, res };
-  };
-  let best = once();
+  let best = timed(sc, undefined, true);
   for (let i = 1; i < REPEATS; i++) {
-    const r = once();
+    const r = timed(sc, undefined, true);
     if (r.wallS < best.wallS) best = r;
   }
   const st = best.res.stats;

@@ -143,7 +143,7 @@ export function controllerPathAt(loop: DiscreteLoop, omegaRadS: number): Complex
   return controllerPath(loop.b0, loop.b1, loop.delaySamples, loop.filterA, omegaRadS * loop.tsS);
 }
 
-function controllerPath(b0: number, b1: number, delaySamples: number, filterA: number, th: number): Complex {
+function controllerPathInto(b0: number, b1: number, delaySamples: number, filterA: number, th: number, out: Complex): Complex {
   const cr = Math.cos(th);
   const si = Math.sin(th);
   // z⁻¹ = cr − j·si
@@ -173,13 +173,22 @@ function controllerPath(b0: number, b1: number, delaySamples: number, filterA: n
     im = re * gi + im * gr;
     re = t;
   }
-  return { re, im };
+  out.re = re;
+  out.im = im;
+  return out;
+}
+
+function controllerPath(b0: number, b1: number, delaySamples: number, filterA: number, th: number): Complex {
+  return controllerPathInto(b0, b1, delaySamples, filterA, th, { re: 0, im: 0 });
 }
 
 /** The exact discrete loop gain L(e^{jωTs}). */
 export function loopGainAt(loop: DiscreteLoop, omegaRadS: number): Complex {
   return loopGainInto(loop, omegaRadS, { re: 0, im: 0 });
 }
+
+/** Reused by loopGainInto (single-threaded; consumed before the next call). */
+const scratch: Complex = { re: 0, im: 0 };
 
 /** loopGainAt writing into `out` (no allocation for two-state plants: the hot path of maps). */
 export function loopGainInto(loop: DiscreteLoop, omegaRadS: number, out: Complex): Complex {
@@ -210,33 +219,9 @@ export function loopGainInto(loop: DiscreteLoop, omegaRadS: number, out: Complex
   }
   pr += loop.d * cr;
   pi -= loop.d * si;
-  // C_pi = (b0 + b1·z⁻¹)/(1 − z⁻¹)
-  const nRe = loop.b0 + loop.b1 * cr;
-  const nIm = -loop.b1 * si;
-  const dRe = 1 - cr;
-  const dd = dRe * dRe + si * si;
-  let re = (nRe * dRe + nIm * si) / dd;
-  let im = (nIm * dRe - nRe * si) / dd;
-  const N = loop.delaySamples;
-  if (N > 0) {
-    const dr = N === 1 ? cr : Math.cos(N * th);
-    const di = N === 1 ? -si : -Math.sin(N * th);
-    const t = re * dr - im * di;
-    im = re * di + im * dr;
-    re = t;
-  }
-  if (loop.filterA !== 1) {
-    const a = loop.filterA;
-    const q = 1 - a;
-    const fr = 1 - q * cr;
-    const fi = q * si;
-    const fd = fr * fr + fi * fi;
-    const gr = (a * fr) / fd;
-    const gi = (-a * fi) / fd;
-    const t = re * gr - im * gi;
-    im = re * gi + im * gr;
-    re = t;
-  }
+  const k = controllerPathInto(loop.b0, loop.b1, loop.delaySamples, loop.filterA, th, scratch);
+  const re = k.re;
+  const im = k.im;
   out.re = pr * re - pi * im;
   out.im = pr * im + pi * re;
   return out;
