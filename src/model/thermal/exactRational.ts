@@ -10,7 +10,7 @@
 export interface Rational {
   /** Numerator; sign carried here. */
   readonly num: bigint;
-  /** Denominator, always > 0; the pair is kept reduced. */
+  /** Denominator, always > 0; the pair is not necessarily reduced. */
   readonly den: bigint;
 }
 
@@ -24,11 +24,22 @@ function gcd(a: bigint, b: bigint): bigint {
   return x;
 }
 
+function reduced(num: bigint, den: bigint): Rational {
+  const g = gcd(num, den);
+  return g > 1n ? { num: num / g, den: den / g } : { num, den };
+}
+
+/**
+ * Reduction is deferred while the denominator stays small: a BigInt gcd costs far more than
+ * multiplying short integers, and the value (hence every sign test and the final rounding,
+ * which reduces first) does not depend on the representation.
+ */
+const REDUCE_ABOVE = 1n << 1024n;
+
 function make(num: bigint, den: bigint): Rational {
   if (den === 0n) throw new Error('exactRational: division by zero');
   if (den < 0n) [num, den] = [-num, -den];
-  const g = gcd(num, den);
-  return g > 1n ? { num: num / g, den: den / g } : { num, den };
+  return den > REDUCE_ABOVE ? reduced(num, den) : { num, den };
 }
 
 /** Exact value of a finite double (doubling is exact, so the loop only moves the binary point). */
@@ -47,13 +58,21 @@ function bitLength(v: bigint): number {
   return v === 0n ? 0 : v.toString(2).length;
 }
 
-/** Nearest double (within one ulp): divide with ≥ 64 significant bits, then scale by 2^−shift. */
+/**
+ * Nearest double: a quotient with ≥ 66 significant bits whose lowest bit is set when the
+ * division left a remainder (a sticky bit), so Number()'s round-to-nearest-even sees the
+ * exact value's side of every midpoint; then an exact scaling by 2^−shift (normal range).
+ * The result depends on the value only, not on whether num/den is reduced.
+ */
 export function rationalToNumber(r: Rational): number {
   if (r.num === 0n) return 0;
   const neg = r.num < 0n;
   const n = neg ? -r.num : r.num;
-  const shift = 64 - (bitLength(n) - bitLength(r.den));
-  const q = shift >= 0 ? (n << BigInt(shift)) / r.den : n / (r.den << BigInt(-shift));
+  const shift = 66 - (bitLength(n) - bitLength(r.den));
+  const top = shift >= 0 ? n << BigInt(shift) : n;
+  const bottom = shift >= 0 ? r.den : r.den << BigInt(-shift);
+  let q = top / bottom;
+  if (q * bottom !== top) q |= 1n;
   // Two half-scalings so that 2^−shift itself never under/overflows for extreme exponents.
   const half = Math.trunc(shift / 2);
   const value = Number(q) * 2 ** -half * 2 ** -(shift - half);

@@ -19,6 +19,19 @@ describe('exact rationals', () => {
     expect(rationalToNumber(ratDiv(rationalFromNumber(1), rationalFromNumber(3)))).toBe(1 / 3);
     expect(rationalToNumber(ratMul(rationalFromNumber(0.1), rationalFromNumber(3)))).toBe(0.30000000000000004);
   });
+
+  it('rounds correctly just above a midpoint and regardless of reduction', () => {
+    // IEEE 754 round-to-nearest (definition): 1 + 2^-53 is the midpoint between 1 and 1 + 2^-52;
+    // anything above it rounds up, the midpoint itself rounds to even (1). A 64-bit truncated
+    // quotient loses the 2^-120 and would land on the midpoint.
+    const twoTo = (e: number): bigint => 1n << BigInt(e);
+    const above = { num: twoTo(120) + twoTo(67) + 1n, den: twoTo(120) };
+    expect(rationalToNumber(above)).toBe(1 + 2 ** -52);
+    expect(rationalToNumber({ num: twoTo(53) + 1n, den: twoTo(53) })).toBe(1);
+    // Same value, unreduced (×3/3): same double.
+    expect(rationalToNumber({ num: 3n * above.num, den: 3n * above.den })).toBe(1 + 2 ** -52);
+    expect(rationalToNumber({ num: -7n * 10n, den: 7n * 3n })).toBe(-10 / 3);
+  });
 });
 
 describe('symmetric eigen-decomposition', () => {
