@@ -14,7 +14,7 @@ import { type SimSystem, buildSystem, samplePeriodS } from '../sim/system.ts';
 import { type DisturbanceName, type LinearPlant, LinearizationError, linearizeAtPoint } from './linearize.ts';
 import { type LoopAnalysis, analyzeLoop } from './loopAnalysis.ts';
 import { type DiscreteLoop, discreteLoop } from './loopGain.ts';
-import { type PointContext, operatingPoint } from './operatingPoint.ts';
+import { type PointContext, operatingPoint, pointContextOn } from './operatingPoint.ts';
 
 export const BASES: readonly PiBasis[] = ['continuous', 'perSample'];
 
@@ -80,7 +80,7 @@ export function marginContext(scenario: Scenario): MarginContext {
   }
   ctx = {
     scenario,
-    point: { scenario, plant, net: sys.net },
+    point: pointContextOn(scenario, plant, sys.net),
     sys,
     nominalTsS: samplePeriodS(sys, scenario.pwm.fswHz),
     configuredBasis: sys.pi.basis,

@@ -44,19 +44,37 @@ export interface PointContext {
   readonly scenario: Scenario;
   readonly plant: Plant;
   readonly net: ThermalNetwork;
+  /**
+   * The network's linear steady-state responses, computed on first use. Contexts that share a
+   * network may share this too (sweeps); it is checked against `net` before use. Kept on the
+   * context rather than in a WeakMap keyed by the network, so a study's thousands of
+   * short-lived networks die young instead of waiting for a full collection.
+   */
+  readonly thermalMemo: ThermalMemo;
+}
+
+export interface ThermalMemo {
+  net?: ThermalNetwork;
+  linear?: LinearThermal;
+  baseline?: PointConditions & { qCoolW: number };
+}
+
+/** A context on a given network (shared with `memo` when the network is shared). */
+export function pointContextOn(scenario: Scenario, plant: Plant, net: ThermalNetwork, memo: ThermalMemo = {}): PointContext {
+  return { scenario, plant, net, thermalMemo: memo };
 }
 
 export function pointContext(scenario: Scenario): PointContext {
   let net: ThermalNetwork;
   try {
-    net = buildThermalNetwork(thermalSpecOf(scenario));
+    net = buildThermalNetwork(thermalSpecOf(scenario), { steadyStateOnly: true });
   } catch (e) {
     // The thermal builder names its own fields (spec.devices[0]…); report them as scenario problems.
     const msg = (e as Error).message.replace(/^spec\.devices\[0\]/, 'thermal.devices.highSide').replace(/^spec\.devices\[1\]/, 'thermal.devices.lowSide').replace(/^spec\./, 'thermal.');
     const [path, ...rest] = msg.split(': ');
     throw new ScenarioError([{ path, message: rest.join(': ') || msg }]);
   }
-  return { scenario, plant: buildPlant(scenario), net };
+  return pointContextOn(scenario, buildPlant(scenario), net);
 }
 
 /** Losses routed into the thermal network: device losses at the junctions, a share of the passives at the plate. */
@@ -75,13 +93,28 @@ const TOL_K = 1e-7;
 const MAX_IT = 200;
 
 /** Coolant heat with no loss at all, per network and conditions (sweeps ask for it at every point). */
-const baselineMemo = new WeakMap<ThermalNetwork, PointConditions & { qCoolW: number }>();
-function baselineCoolantW(net: ThermalNetwork, c: PointConditions): number {
-  const m = baselineMemo.get(net);
-  if (m && m.inletC === c.inletC && m.flowKgPerS === c.flowKgPerS && m.ambientC === c.ambientC) return m.qCoolW;
+function memoFor(ctx: PointContext): ThermalMemo {
+  const m = ctx.thermalMemo;
+  if (m.net !== ctx.net) {
+    m.net = ctx.net;
+    m.linear = undefined;
+    m.baseline = undefined;
+  }
+  return m;
+}
+
+function sameConditions(a: PointConditions, b: PointConditions): boolean {
+  return a.inletC === b.inletC && a.flowKgPerS === b.flowKgPerS && a.ambientC === b.ambientC;
+}
+
+function baselineCoolantW(ctx: PointContext, c: PointConditions): number {
+  const memo = memoFor(ctx);
+  const m = memo.baseline;
+  if (m && sameConditions(m, c)) return m.qCoolW;
+  const net = ctx.net;
   const baseline = thermalSteadyState(net, { deviceLossW: [0, 0], sinkExtraW: 0, inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC });
   const qCoolW = heatToCoolantW(net, baseline, c.inletC, c.flowKgPerS);
-  baselineMemo.set(net, { inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC, qCoolW });
+  memo.baseline = { inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC, qCoolW };
   return qCoolW;
 }
 
@@ -90,17 +123,18 @@ function baselineCoolantW(net: ThermalNetwork, c: PointConditions): number {
  * response per watt. Three unit solves per network and conditions replace a dense solve at every
  * electro-thermal iteration (results equal to rounding).
  */
-interface LinearThermal extends PointConditions { base: Float64Array; uHs: Float64Array; uLs: Float64Array; uSink: Float64Array; out: Float64Array }
-const linearMemo = new WeakMap<ThermalNetwork, LinearThermal>();
-function linearThermal(net: ThermalNetwork, c: PointConditions): LinearThermal {
-  const m = linearMemo.get(net);
-  if (m && m.inletC === c.inletC && m.flowKgPerS === c.flowKgPerS && m.ambientC === c.ambientC) return m;
+export interface LinearThermal extends PointConditions { base: Float64Array; uHs: Float64Array; uLs: Float64Array; uSink: Float64Array; out: Float64Array }
+function linearThermal(ctx: PointContext, c: PointConditions): LinearThermal {
+  const memo = memoFor(ctx);
+  const m = memo.linear;
+  if (m && sameConditions(m, c)) return m;
+  const net = ctx.net;
   const at = (hs: number, ls: number, sink: number): Float64Array =>
     thermalSteadyState(net, { deviceLossW: [hs, ls], sinkExtraW: sink, inletC: c.inletC, flowKgPerS: c.flowKgPerS, ambientC: c.ambientC });
   const base = at(0, 0, 0);
   const minus = (a: Float64Array): Float64Array => a.map((v, i) => v - base[i]);
   const lt: LinearThermal = { ...c, base, uHs: minus(at(1, 0, 0)), uLs: minus(at(0, 1, 0)), uSink: minus(at(0, 0, 1)), out: new Float64Array(net.nNodes) };
-  linearMemo.set(net, lt);
+  memo.linear = lt;
   return lt;
 }
 
@@ -124,7 +158,7 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
   let tjL = c.inletC;
   let ep = electricalPoint(plant, k, tjH, tjL);
   const tIn = thermalInputsOf(plant, ep, c);
-  const lt = linearThermal(net, c);
+  const lt = linearThermal(ctx, c);
   let temps = steadyTemps(lt, tIn);
   let status: OperatingPoint['status'] = 'ok';
   let it = 0;
@@ -158,7 +192,7 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
   const qCool = heatToCoolantW(net, temps, c.inletC, c.flowKgPerS);
   // The converter's own share: the network is linear, so subtract what the coolant would pick
   // up from ambient with no loss at all (a cold inlet also draws heat from a warmer room).
-  const qCool0 = baselineCoolantW(net, c);
+  const qCool0 = baselineCoolantW(ctx, c);
   const qAmb = heatToAmbientW(net, temps, c.ambientC);
   const lim = scenario.limits;
   const cautions = [...electricalCautions(plant, ep, tjH, tjL, lim), ...thermalCautions(plant, tjH, tjL, lim)];

@@ -6,7 +6,7 @@
 import { ScenarioError, type ScenarioProblem } from '../scenario/errors.ts';
 import { type Scenario, withOverrides } from '../scenario/parse.ts';
 import { buildPlant, thermalSpecOf } from '../model/plant.ts';
-import { type OperatingPoint, type PointContext, operatingPoint, pointContext } from './operatingPoint.ts';
+import { type OperatingPoint, type PointContext, operatingPoint, pointContext, pointContextOn } from './operatingPoint.ts';
 
 export const MAX_SWEEP_STEPS = 100_000;
 
@@ -72,7 +72,7 @@ function dedupe(problems: readonly ScenarioProblem[]): ScenarioProblem[] {
  */
 function contextFor(variant: Scenario, base: PointContext, baseSpecJson: string): PointContext {
   if (JSON.stringify(thermalSpecOf(variant)) !== baseSpecJson) return pointContext(variant);
-  return { scenario: variant, plant: buildPlant(variant), net: base.net };
+  return pointContextOn(variant, buildPlant(variant), base.net, base.thermalMemo);
 }
 
 /** The steady-state operating point of each variant. */

@@ -67,13 +67,36 @@ export interface ThermalInputs {
   ambientC: number;
 }
 
-export function buildThermalNetwork(spec: ThermalSpec): ThermalNetwork {
+export interface ThermalNetworkOptions {
+  /**
+   * Steady state only: each junction–case impedance becomes one stage with its DC resistance
+   * (Σ Ri, which a Foster network and its Cauer ladder share) and a placeholder capacitance
+   * (Cauer: ΣCi; Foster: Σ τi/Ri) that only keeps the node well formed.
+   * Junction, heatsink and coolant temperatures at steady state are those of the full
+   * network; transients are not. Operating points use it, so a device-spread sample does not
+   * pay the exact Foster→Cauer expansion it never needs.
+   */
+  steadyStateOnly?: boolean;
+}
+
+function sum(xs: readonly number[]): number {
+  let s = 0;
+  for (const x of xs) s += x;
+  return s;
+}
+
+export function buildThermalNetwork(spec: ThermalSpec, options: ThermalNetworkOptions = {}): ThermalNetwork {
   validateThermalSpec(spec);
-  const junctionCase = spec.devices.map((dev, i) =>
-    dev.junctionCase.kind === 'foster'
-      ? fosterToCauer(dev.junctionCase, `spec.devices[${i}].junctionCase`)
-      : Object.freeze({ rKPerW: Object.freeze([...dev.junctionCase.rKPerW]), cJPerK: Object.freeze([...dev.junctionCase.cJPerK]) }),
-  );
+  const junctionCase = spec.devices.map((dev, i) => {
+    const jc = dev.junctionCase;
+    if (options.steadyStateOnly) {
+      const cJPerK = jc.kind === 'foster' ? jc.tauS.reduce((c, tau, k) => c + tau / jc.rKPerW[k], 0) : sum(jc.cJPerK);
+      return Object.freeze({ rKPerW: Object.freeze([sum(jc.rKPerW)]), cJPerK: Object.freeze([cJPerK]) });
+    }
+    return jc.kind === 'foster'
+      ? fosterToCauer(jc, `spec.devices[${i}].junctionCase`)
+      : Object.freeze({ rKPerW: Object.freeze([...jc.rKPerW]), cJPerK: Object.freeze([...jc.cJPerK]) });
+  });
   const nChain = junctionCase.reduce((sum, c) => sum + c.rKPerW.length, 0);
   const heatsink = nChain;
   const coolant = nChain + 1;

@@ -130,6 +130,25 @@ describe('steady state', () => {
     expect(Math.abs(t[net.layout.junction[1]] - hs)).toBeLessThanOrEqual(1e-12 * Math.abs(hs));
   });
 
+  it('steady-state-only network gives the full network\'s junction, heatsink and coolant temperatures (property)', () => {
+    // Series resistances at DC (analytic): a Foster network and its Cauer ladder share Σ Ri, so
+    // lumping each junction–case path into one stage changes no steady-state temperature of
+    // interest. Tolerance 1e-9 K (linear solves of different sizes, rounding only).
+    fc.assert(
+      fc.property(specArb.chain((spec) => fc.tuple(fc.constant(spec), inputsArb(spec.devices.length))), ([spec, inputs]) => {
+        const full = buildThermalNetwork(spec);
+        const lumped = buildThermalNetwork(spec, { steadyStateOnly: true });
+        expect(lumped.nNodes).toBe(spec.devices.length + 2);
+        const a = thermalSteadyState(full, inputs);
+        const b = thermalSteadyState(lumped, inputs);
+        const pick = (net: ThermalNetwork, t: Float64Array): number[] => [...net.layout.junction.map((j) => t[j]), t[net.layout.heatsink], t[net.layout.coolant]];
+        const ta = pick(full, a);
+        const tb = pick(lumped, b);
+        ta.forEach((v, i) => expect(Math.abs(v - tb[i])).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(v))));
+      }),
+    );
+  });
+
   it('sends all injected heat out through coolant and ambient (property)', () => {
     // First law at steady state (analytic); rel 1e-9 as required.
     fc.assert(
