@@ -111,24 +111,36 @@ function deepFreeze<T>(o: T): T {
   return o;
 }
 
-/** Validate a plain object as a scenario. Throws ScenarioError listing every problem. */
-export function parseScenarioObject(input: unknown): Scenario {
-  if (input === null || typeof input !== 'object' || Array.isArray(input)) {
-    throw new ScenarioError([{ path: '(root)', message: `must be a mapping of fields, got ${show(input)}` }]);
-  }
-  const r = scenarioSchema.safeParse(input);
-  if (!r.success) throw new ScenarioError(problemsFromZod(r.error.issues, input));
+type DeviceRefs = ScenarioParsed['devices'];
+
+/** Parts resolved and checked against the bus: the rules that tie `devices` to the rest. */
+function resolveDevices(refs: DeviceRefs, data: Pick<ScenarioParsed, 'buck' | 'halfBridge'>): Scenario['devices'] {
   const problems: ScenarioProblem[] = [];
-  const hs = resolveDevice(r.data.devices.highSide as Record<string, unknown>, 'devices.highSide', problems);
-  const ls = resolveDevice(r.data.devices.lowSide as Record<string, unknown>, 'devices.lowSide', problems);
+  const hs = resolveDevice(refs.highSide as Record<string, unknown>, 'devices.highSide', problems);
+  const ls = resolveDevice(refs.lowSide as Record<string, unknown>, 'devices.lowSide', problems);
   if (problems.length > 0 || !hs || !ls) throw new ScenarioError(problems);
-  const vBus = r.data.buck?.vinV ?? r.data.halfBridge?.vdcV ?? 0;
+  const vBus = data.buck?.vinV ?? data.halfBridge?.vdcV ?? 0;
   for (const [name, dev] of [['highSide', hs], ['lowSide', ls]] as const) {
     if (vBus > dev.vdsRatedV)
       problems.push({ path: `devices.${name}.part`, message: `bus ${vBus} V exceeds the part's rated ${dev.vdsRatedV} V` });
   }
   if (problems.length > 0) throw new ScenarioError(problems);
-  const scenario = { ...r.data, devices: { highSide: hs, lowSide: ls }, input: structuredClone(input) };
+  return { highSide: hs, lowSide: ls };
+}
+
+/** Validate a plain object as a scenario. Throws ScenarioError listing every problem. */
+export function parseScenarioObject(input: unknown): Scenario {
+  if (input === null || typeof input !== 'object' || Array.isArray(input)) {
+    throw new ScenarioError([{ path: '(root)', message: `must be a mapping of fields, got ${show(input)}` }]);
+  }
+  return parseOwnedInput(structuredClone(input) as Record<string, unknown>);
+}
+
+/** parseScenarioObject for an input nobody else holds (kept as the scenario's `input`, not copied). */
+function parseOwnedInput(input: Record<string, unknown>): Scenario {
+  const r = scenarioSchema.safeParse(input);
+  if (!r.success) throw new ScenarioError(problemsFromZod(r.error.issues, input));
+  const scenario = { ...r.data, devices: resolveDevices(r.data.devices, r.data), input };
   return deepFreeze(scenario) as Scenario;
 }
 
@@ -160,12 +172,57 @@ export function setPath(root: unknown, path: string, value: unknown): unknown {
   return copy;
 }
 
+/** A copy of plain data (what a scenario input holds: objects, arrays, primitives). */
+function plainCopy<T>(v: T): T {
+  if (v === null || typeof v !== 'object') return v;
+  if (Array.isArray(v)) return v.map(plainCopy) as T;
+  const out: Record<string, unknown> = {};
+  for (const k of Object.keys(v)) out[k] = plainCopy((v as Record<string, unknown>)[k]);
+  return out as T;
+}
+
+/**
+ * Top-level sections that no rule outside them reads, apart from the part resolution and bus
+ * check of `resolveDevices`: the scenario-wide refinement (schema.ts) looks at topology, buck,
+ * halfBridge, pwm and supervisor only. A patch confined to these sections re-validates just
+ * them, with the same schemas, and gives the same scenario (or the same problems) as a full
+ * re-parse (tests/scenario/variant.test.ts checks that equivalence on random patches).
+ */
+const SELF_CONTAINED = { devices: scenarioSchema.shape.devices, thermal: scenarioSchema.shape.thermal } as const;
+type SelfContained = keyof typeof SELF_CONTAINED;
+
+function sectionOf(path: string): string {
+  const dot = path.indexOf('.');
+  return dot < 0 ? path : path.slice(0, dot);
+}
+
 /** A variant of a scenario with some fields replaced (sweeps, --set, studies). Re-validated. */
 export function withOverrides(scenario: Scenario, patch: Readonly<Record<string, unknown>>): Scenario {
-  // One copy for the whole patch: studies apply a dozen device fields per sample.
-  const input = structuredClone(scenario.input) as Record<string, unknown>;
-  for (const [path, value] of Object.entries(patch)) setPathInPlace(input, path, structuredClone(value));
-  return parseScenarioObject(input);
+  const paths = Object.keys(patch);
+  const sections = new Set(paths.map(sectionOf));
+  const base = scenario.input as Record<string, unknown>;
+  const local = paths.length > 0 && [...sections].every((s) => s in SELF_CONTAINED && base[s] !== null && typeof base[s] === 'object' && !Array.isArray(base[s]));
+  // One copy for the whole patch (studies apply a dozen device fields per sample); a local
+  // patch copies only the sections it touches and shares the rest of the input.
+  const input = local ? { ...base } : plainCopy(base);
+  if (local) for (const s of sections) input[s] = plainCopy(base[s]);
+  for (const [path, value] of Object.entries(patch)) setPathInPlace(input, path, plainCopy(value));
+  return local ? withSections(scenario, input, sections as Set<SelfContained>) : parseOwnedInput(input);
+}
+
+function withSections(scenario: Scenario, input: Record<string, unknown>, sections: ReadonlySet<SelfContained>): Scenario {
+  const problems: ScenarioProblem[] = [];
+  const parsed: Partial<Record<SelfContained, unknown>> = {};
+  for (const s of Object.keys(SELF_CONTAINED) as SelfContained[]) {
+    if (!sections.has(s)) continue; // in schema order, as a full parse reports them
+    const r = SELF_CONTAINED[s].safeParse(input[s]);
+    if (r.success) parsed[s] = r.data;
+    else problems.push(...problemsFromZod(r.error.issues, input[s], [s]));
+  }
+  if (problems.length > 0) throw new ScenarioError(problems);
+  const thermal = (parsed.thermal as Scenario['thermal'] | undefined) ?? scenario.thermal;
+  const devices = parsed.devices ? resolveDevices(parsed.devices as DeviceRefs, scenario) : scenario.devices;
+  return deepFreeze({ ...scenario, thermal, devices, input }) as Scenario;
 }
 
 /** Parse a `--set` value: numbers (1e5, 200e3), booleans, JSON arrays/objects, else a string. */

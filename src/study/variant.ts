@@ -22,6 +22,11 @@ export interface StudyContext {
   readonly tjMarginK: number;
   /** The supervisor's effort ladder on the base scenario (undefined without a supervisor). */
   readonly ladder: Ladder | undefined;
+  /**
+   * The base with the operating patch applied, validated once on first use (preflight reports
+   * a bad operating setting first); samples then patch only their own values on top of it.
+   */
+  readonly operating: () => Scenario;
 }
 
 export type Ladder = Parameters<typeof knobsAtEffort>[0];
@@ -87,7 +92,16 @@ export function studyContext(spec: StudySpec, base: Scenario): StudyContext {
     if (problems.length > 0) throw new ScenarioError(problems);
   }
   const ladder = needsLadder ? supervisorLadder(fixed) : undefined;
-  return { spec, base: fixed, operatingPatch: operatingPatchOf(spec, fixed, ladder), tjMarginK: spec.limits?.tjMarginK ?? fixed.limits.tjMarginK, ladder };
+  const operatingPatch = operatingPatchOf(spec, fixed, ladder);
+  let operating: Scenario | undefined;
+  return {
+    spec,
+    base: fixed,
+    operatingPatch,
+    tjMarginK: spec.limits?.tjMarginK ?? fixed.limits.tjMarginK,
+    ladder,
+    operating: () => (operating ??= Object.keys(operatingPatch).length > 0 ? withOverrides(fixed, operatingPatch) : fixed),
+  };
 }
 
 function withSpecSet(base: Scenario, set: Readonly<Record<string, unknown>>): Scenario {
@@ -101,7 +115,12 @@ function withSpecSet(base: Scenario, set: Readonly<Record<string, unknown>>): Sc
 
 /** The parameter patch of a sample (operating setting, seed for `run`, grid and random values). */
 export function paramPatch(ctx: StudyContext, plan: SamplePlan): Record<string, unknown> {
-  const patch: Record<string, unknown> = { ...ctx.operatingPatch };
+  return { ...ctx.operatingPatch, ...ownPatch(ctx, plan) };
+}
+
+/** What a sample sets on top of the operating scenario: the seed for `run`, grid and random values. */
+function ownPatch(ctx: StudyContext, plan: SamplePlan): Record<string, unknown> {
+  const patch: Record<string, unknown> = {};
   if (ctx.spec.kind === 'run') patch['sim.seed'] = plan.seed;
   Object.assign(patch, plan.params);
   return patch;
@@ -151,17 +170,20 @@ function touchesDevices(path: string): boolean {
  * and the drawn variant is parsed once, from the base (the same input, so the same scenario).
  */
 export function sampleScenarios(ctx: StudyContext, plan: SamplePlan): SampleScenarios {
-  const params = paramPatch(ctx, plan);
+  // Base + operating patch + the sample's own values: applying the operating patch first (once
+  // per study) gives the same scenario, as the sample's values win either way.
+  const own = ownPatch(ctx, plan);
+  const operating = ctx.operating();
   let nominal: Scenario | undefined;
-  const nominalOf = (): Scenario => (nominal ??= withOverrides(ctx.base, params));
+  const nominalOf = (): Scenario => (nominal ??= Object.keys(own).length > 0 ? withOverrides(operating, own) : operating);
   if (!plan.devices) {
     const s = nominalOf();
     return { drawn: s, nominal: () => s };
   }
-  const relative = Object.keys(params).some(touchesDevices);
+  const relative = Object.keys(own).some(touchesDevices);
   const drawn = relative
     ? withOverrides(nominalOf(), devicePatch(nominalOf(), plan.devices))
-    : withOverrides(ctx.base, { ...params, ...devicePatch(ctx.base, plan.devices) });
+    : withOverrides(operating, { ...own, ...devicePatch(operating, plan.devices) });
   return { drawn, nominal: nominalOf };
 }
 
