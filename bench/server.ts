@@ -7,10 +7,13 @@
  */
 import { spawn } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
+import { autoSessionThreads } from '../src/cli/commands/serve.ts';
 import { startServer } from '../src/server/server.ts';
 import type { BenchResult } from './types.ts';
 
 const SESSIONS = 20;
+/** Session hosts: one per core of this machine (the main thread keeps the sockets). */
+const THREADS = autoSessionThreads();
 const SPEED = 100;
 const WALL_S = 10;
 const TARGET_FRAMES_PER_S = 20;
@@ -27,7 +30,7 @@ const stats = (xs: number[]) => ({
 });
 
 export async function benchServer(): Promise<BenchResult> {
-  const server = await startServer({ port: 0, maxSessions: SESSIONS + 4, log: () => undefined });
+  const server = await startServer({ port: 0, maxSessions: SESSIONS + 4, sessionThreads: THREADS, log: () => undefined });
   try {
     const script = fileURLToPath(new URL('./serverClients.mjs', import.meta.url));
     const child = spawn(process.execPath, [script, `${server.url.replace(/^http/, 'ws')}ws`, String(SESSIONS), String(WALL_S), String(SPEED)], {

@@ -14,7 +14,7 @@ import { type Scenario, parseScenario } from '../scenario/parse.ts';
 import type { CaseLibrary } from './cases.ts';
 import { CASE_NAME, LIVE_BOUNDS } from './protocol.ts';
 import { hostGuard, sameOriginGuard, securityHeaders } from './security.ts';
-import type { Session } from './session.ts';
+import type { LiveSession } from './sessionPool.ts';
 import { SessionError } from './session.ts';
 import { jsonSafe } from './stability.ts';
 
@@ -23,7 +23,7 @@ export interface AppContext {
   cases: CaseLibrary;
   defaultCase: string;
   hostAllowed(host: string | undefined): boolean;
-  session(id: string): Session | undefined;
+  session(id: string): LiveSession | undefined;
   sessionCount(): number;
   maxSessions: number;
 }
@@ -148,14 +148,14 @@ export function createApp(ctx: AppContext): express.Express {
     }
   });
 
-  const download = (what: 'replay' | 'trace') => (req: Request, res: Response) => {
+  const download = (what: 'replay' | 'trace') => async (req: Request, res: Response) => {
     const s = ctx.session(String(req.params.id));
     if (!s) {
       res.status(404).json({ error: 'no such live session (it ends when its page closes)' });
       return;
     }
     try {
-      const out = what === 'replay' ? s.replay() : s.traceCsv();
+      const out = await (what === 'replay' ? s.replay() : s.traceCsv());
       res.setHeader('Content-Disposition', `attachment; filename="${out.fileName.replace(/[^A-Za-z0-9._-]/g, '_')}"`);
       res.setHeader('Cache-Control', 'no-store');
       res.type(what === 'replay' ? 'application/yaml' : 'text/csv').send(out.text);

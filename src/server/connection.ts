@@ -14,7 +14,7 @@ import { WebSocket } from 'ws';
 import { HARDWARE_NOTICE } from '../analysis/cautions.ts';
 import { type Command, PROTOCOL_VERSION, type ServerMessage, parseCommand } from './protocol.ts';
 import { TokenBucket } from './rateLimit.ts';
-import { Session, type SessionOptions } from './session.ts';
+import type { LiveSession, SessionTransport } from './sessionPool.ts';
 
 export interface ConnectionLimits {
   /** Larger text messages get an error (the session stays up); ws closes past maxPayloadBytes. */
@@ -32,13 +32,14 @@ export interface ConnectionLimits {
 
 export interface ConnectionContext {
   limits: ConnectionLimits;
-  session: Omit<SessionOptions, 'onRunningChange'>;
   serverName: string;
   frameHz: number;
   traceMaxRecords: number;
   cases(): Promise<string[]>;
-  register(s: Session): void;
-  unregister(s: Session): void;
+  /** The connection's session: in-process, or on a session host (server.ts decides). */
+  createSession(id: string, transport: SessionTransport & { canSendFrame(): boolean }): LiveSession;
+  register(s: LiveSession): void;
+  unregister(s: LiveSession): void;
   runningChanged(delta: number): void;
   log(line: string): void;
 }
@@ -51,7 +52,7 @@ export interface ConnectionStats {
   messagesSent: number;
 }
 
-export function attachConnection(ws: WebSocket, ctx: ConnectionContext): { session: Session; stats: ConnectionStats } {
+export function attachConnection(ws: WebSocket, ctx: ConnectionContext): { session: LiveSession; stats: ConnectionStats } {
   const L = ctx.limits;
   const id = randomUUID();
   let framesInFlight = 0;
@@ -68,33 +69,43 @@ export function attachConnection(ws: WebSocket, ctx: ConnectionContext): { sessi
     messagesSent: 0,
   };
 
-  const send = (msg: ServerMessage): void => {
+  const sendText = (text: string, isFrame: boolean, frameLeft?: (bufferedBytes: number) => void): void => {
     if (ws.readyState !== WebSocket.OPEN) return;
-    const isFrame = msg.type === 'frame';
     if (ws.bufferedAmount > L.hardCapBytes) {
       ctx.log(`session ${id}: client is not reading (${ws.bufferedAmount} bytes queued); disconnecting`);
       ws.terminate();
       return;
     }
-    if (isFrame) framesInFlight++;
+    if (isFrame) {
+      framesInFlight++;
+      stats.framesSent++;
+    }
     stats.messagesSent++;
-    ws.send(JSON.stringify(msg), (err) => {
-      if (isFrame) framesInFlight--;
+    ws.send(text, (err) => {
+      if (isFrame) {
+        framesInFlight--;
+        frameLeft?.(ws.bufferedAmount);
+      }
       // A client that went away mid-send is not worth a log line; anything else is.
       if (err && !closed && ws.readyState === WebSocket.OPEN) ctx.log(`session ${id}: send failed: ${err.message}`);
     });
   };
+  const send = (msg: ServerMessage): void => sendText(JSON.stringify(msg), msg.type === 'frame');
 
   const canSendFrame = (): boolean => {
     const ok = ws.readyState === WebSocket.OPEN && framesInFlight < 2 && ws.bufferedAmount < L.frameHighWaterBytes;
-    if (ok) stats.framesSent++;
-    else stats.framesHeld++;
+    if (!ok) stats.framesHeld++;
     return ok;
   };
 
-  const session = new Session(id, { send, canSendFrame }, {
-    ...ctx.session,
-    onRunningChange(running) {
+  const session = ctx.createSession(id, {
+    send,
+    sendText,
+    canSendFrame,
+    frameHeld: () => {
+      stats.framesHeld++;
+    },
+    runningChanged(running) {
       if (running === wasRunning) return;
       wasRunning = running;
       ctx.runningChanged(running ? 1 : -1);
@@ -102,7 +113,7 @@ export function attachConnection(ws: WebSocket, ctx: ConnectionContext): { sessi
   });
   ctx.register(session);
 
-  const sendError = (code: Parameters<Session['error']>[0], message: string, extra: Parameters<Session['error']>[2] = {}): void =>
+  const sendError = (code: Parameters<LiveSession['error']>[0], message: string, extra: Parameters<LiveSession['error']>[2] = {}): void =>
     session.error(code, message, extra);
 
   const heartbeat = setInterval(() => {

@@ -8,6 +8,7 @@
  */
 import { type IncomingMessage, type Server, createServer } from 'node:http';
 import type { Duplex } from 'node:stream';
+import type { Worker } from 'node:worker_threads';
 import { fileURLToPath } from 'node:url';
 import { WebSocket, WebSocketServer } from 'ws';
 import { createApp } from './app.ts';
@@ -16,7 +17,8 @@ import { type ConnectionLimits, type ConnectionStats, attachConnection } from '.
 import { PROTOCOL_VERSION } from './protocol.ts';
 import { hostChecker, originAllowed } from './security.ts';
 import { TickScheduler } from './scheduler.ts';
-import type { Session } from './session.ts';
+import { Session } from './session.ts';
+import { type LiveSession, SessionPool } from './sessionPool.ts';
 
 export interface ServeOptions {
   host?: string;
@@ -32,8 +34,14 @@ export interface ServeOptions {
   /** Hard websocket payload cap (ws closes the connection with 1009 past it). */
   maxPayloadBytes?: number;
   limits?: Partial<ConnectionLimits>;
-  /** Total compute a tick may spend across running sessions (ms). */
+  /** Total compute a tick may spend across running sessions (ms), per thread that runs sessions. */
   tickBudgetMs?: number;
+  /**
+   * Worker threads that compute the sessions (0: on the main thread, beside the sockets). With
+   * N ≥ 1 each new session goes to the least busy of N session hosts; the main thread keeps the
+   * sockets, HTTP and the command checks.
+   */
+  sessionThreads?: number;
   log?: (line: string) => void;
 }
 
@@ -42,9 +50,14 @@ export interface RunningServer {
   readonly host: string;
   readonly port: number;
   readonly http: Server;
-  readonly sessions: ReadonlyMap<string, Session>;
-  /** The pacing loop (its compute budget and load, for tests and the benchmark). */
+  /** Live sessions by id: `Session` objects when computed in-process (sessionThreads 0). */
+  readonly sessions: ReadonlyMap<string, LiveSession>;
+  /** The main thread's pacing loop (in-process sessions; its compute budget and load). */
   readonly scheduler: TickScheduler;
+  /** Worker threads computing sessions (0: in-process). */
+  readonly sessionThreads: number;
+  /** Those threads, in placement order (a new session goes to the first with the fewest). */
+  sessionHostWorkers(): readonly Worker[];
   /** Per-session transport figures: bytes queued to the client now, frames sent and held back. */
   connectionStats(): Map<string, { bufferedBytes: number; framesSent: number; framesHeld: number; messagesSent: number }>;
   close(): Promise<void>;
@@ -101,8 +114,24 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
   const tickBudgetMs = opts.tickBudgetMs ?? DEFAULTS.tickBudgetMs;
   const hostAllowed = hostChecker(host);
 
-  const sessions = new Map<string, Session>();
+  const sessions = new Map<string, LiveSession>();
   const scheduler = new TickScheduler({ frameHz, maxBudgetMs: tickBudgetMs, now: () => performance.now() });
+  const sessionThreads = Math.max(0, Math.floor(opts.sessionThreads ?? 0));
+  const maxPointsPerFrame = opts.maxPointsPerFrame ?? DEFAULTS.maxPointsPerFrame;
+  const pool =
+    sessionThreads > 0
+      ? new SessionPool(
+          sessionThreads,
+          { casesDir: opts.casesDir ?? `${ROOT}cases`, defaultCase, frameHz, maxPointsPerFrame, traceMaxRecords, tickBudgetMs, frameHighWaterBytes: limits.frameHighWaterBytes },
+          log,
+        )
+      : undefined;
+  try {
+    await pool?.ready();
+  } catch (e) {
+    await pool?.close();
+    throw e;
+  }
   const stats = new Map<string, ConnectionStats>();
   let pendingConnections = 0;
   let running = 0;
@@ -141,19 +170,23 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
         running = Math.max(0, running + d);
       },
       log,
-      session: {
-        cases,
-        defaultCase,
-        frameHz,
-        maxPointsPerFrame: opts.maxPointsPerFrame ?? DEFAULTS.maxPointsPerFrame,
-        traceMaxRecords,
-        // The tick budget is shared: many running sessions each get a smaller slice, so the event
-        // loop keeps its rhythm and every session still gets its frames.
-        budgetMs: () => Math.max(0.5, Math.min(20, tickBudgetMs / Math.max(1, running))),
-        now: () => performance.now(),
-        schedule: (s) => scheduler.add(s),
-        log,
-      },
+      createSession: (id, tr) =>
+        pool
+          ? pool.open(id, tr)
+          : new Session(id, tr, {
+              cases,
+              defaultCase,
+              frameHz,
+              maxPointsPerFrame,
+              traceMaxRecords,
+              // The tick budget is shared: many running sessions each get a smaller slice, so the event
+              // loop keeps its rhythm and every session still gets its frames.
+              budgetMs: () => Math.max(0.5, Math.min(20, tickBudgetMs / Math.max(1, running))),
+              now: () => performance.now(),
+              schedule: (s) => scheduler.add(s),
+              onRunningChange: (on) => tr.runningChanged(on),
+              log,
+            }),
     });
     if (sessions.has(session.id)) stats.set(session.id, st);
   });
@@ -216,6 +249,8 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
     http,
     sessions,
     scheduler,
+    sessionThreads,
+    sessionHostWorkers: () => pool?.workers() ?? [],
     connectionStats: () =>
       new Map([...stats].map(([id, st]) => [id, { bufferedBytes: st.bufferedBytes(), framesSent: st.framesSent, framesHeld: st.framesHeld, messagesSent: st.messagesSent }])),
     close(): Promise<void> {
@@ -225,7 +260,7 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
         scheduler.stop();
         wss.close();
         http.closeAllConnections();
-        http.close(() => resolve());
+        http.close(() => void (pool ? pool.close() : Promise.resolve()).then(() => resolve()));
       });
       return closing;
     },

@@ -38,7 +38,8 @@ describe.skipIf(!HAVE_CHROMIUM)('the live dashboard in Chromium', () => {
   const pageErrors: string[] = [];
 
   beforeAll(async () => {
-    server = await startServer({ port: 0, log: () => undefined });
+    // Sessions on a host thread, as `lossdial serve` runs them by default.
+    server = await startServer({ port: 0, sessionThreads: 1, log: () => undefined });
     profileDir = mkdtempSync(join(tmpdir(), 'lossdial-chromium-'));
     work = mkdtempSync(join(tmpdir(), 'lossdial-e2e-'));
     ctx = await chromium.launchPersistentContext(profileDir, {

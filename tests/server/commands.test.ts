@@ -7,21 +7,22 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { RunningServer } from '../../src/server/server.ts';
 import { type Client, ask, connect, ready, sleep, testServer } from './helpers.ts';
 
-let server: RunningServer;
-let c: Client;
+// The same session, computed on the main thread (0) and on a session host worker thread (1).
+describe.each([0, 1])('a live session (session threads: %i)', (sessionThreads) => {
+  let server: RunningServer;
+  let c: Client;
 
-beforeAll(async () => {
-  server = await testServer();
-  c = await connect(server);
-  await ready(c);
-});
+  beforeAll(async () => {
+    server = await testServer({ sessionThreads });
+    c = await connect(server);
+    await ready(c);
+  });
 
-afterAll(async () => {
-  await c?.close();
-  await server?.close();
-});
+  afterAll(async () => {
+    await c?.close();
+    await server?.close();
+  });
 
-describe('a live session', () => {
   it('greets with hello (cases, limits, hardware notice) and the default scenario', () => {
     const hello = c.messages.find((m) => m.type === 'hello');
     expect(hello.cases).toContain('buck-cabin-warmup');

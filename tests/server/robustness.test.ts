@@ -164,9 +164,9 @@ describe('floods and slow readers', () => {
     expect((await ask(c, { type: 'speed', speed: 20 })).ack).toBe('speed');
   });
 
-  it('a client that stops reading costs bounded memory: frames are held and merged, never queued without end', async () => {
+  it.each([0, 1])('a client that stops reading costs bounded memory: frames are held and merged, never queued without end (session threads: %i)', async (sessionThreads) => {
     // Large frames at a high rate so the socket's buffers fill within a second or two.
-    const s = await server({ frameHz: 50, maxPointsPerFrame: 3000, defaultCase: 'buck-aux-48v' });
+    const s = await server({ frameHz: 50, maxPointsPerFrame: 3000, defaultCase: 'buck-aux-48v', sessionThreads });
     const c = await client(s);
     await ready(c);
     expect((await ask(c, { type: 'speed', speed: 'max' })).ack).toBe('speed');
@@ -218,6 +218,36 @@ describe('failures stay in their session', () => {
     await b.waitFor((m) => m.type === 'frame' && m.tS > t0 + 5, 10_000, 'b still advancing');
     // The failed session still answers, and a reset brings it back.
     expect((await ask(a, { type: 'reset' })).state).toBe('idle');
+    expect((await fetch(`${s.url}api/health`)).status).toBe(200);
+  });
+
+  it('a session host thread that dies fails only its own sessions; new sessions start on its replacement', async () => {
+    const s = await server({ sessionThreads: 2 });
+    const a = await client(s);
+    const b = await client(s);
+    await ready(a);
+    await ready(b);
+    for (const c of [a, b]) {
+      await ask(c, { type: 'speed', speed: 50 });
+      await ask(c, { type: 'start' });
+    }
+    // Placement: the first session went to the first host, the second to the other one.
+    await s.sessionHostWorkers()[0].terminate();
+    const e = await a.waitFor((m) => m.type === 'error' && m.code === 'sessionFailed', 10_000, 'sessionFailed on a');
+    expect(e.message).toMatch(/session host stopped/);
+    // A command to the lost session is answered with an error, not left hanging.
+    const late = await ask(a, { type: 'pause' });
+    expect(late.type).toBe('error');
+    expect(late.code).toBe('sessionFailed');
+    const t0 = (await b.waitFor((m) => m.type === 'frame' && m.state === 'running', 10_000, 'b running')).tS;
+    await b.waitFor((m) => m.type === 'frame' && m.tS > t0 + 5, 10_000, 'b still advancing');
+    expect(b.messages.some((m) => m.type === 'error')).toBe(false);
+    // A new session starts (on the replacement host) and runs.
+    const c = await client(s);
+    await ready(c);
+    await ask(c, { type: 'speed', speed: 50 });
+    expect((await ask(c, { type: 'start' })).state).toBe('running');
+    await c.waitFor((m) => m.type === 'frame' && m.tS > 1, 10_000, 'the new session advancing');
     expect((await fetch(`${s.url}api/health`)).status).toBe(200);
   });
 

@@ -49,4 +49,10 @@ describe('lossdial serve', () => {
     expect(r.code).toBe(2);
     expect(r.err).toMatch(/no case named "no-such-case"; known cases: .*buck-cabin-warmup/);
   });
+
+  it('a bad --threads is a clear error, exit 2', async () => {
+    const r = await cli('serve', '--port', '0', '--threads', 'lots');
+    expect(r.code).toBe(2);
+    expect(r.err).toMatch(/--threads must be a whole number from 0 to 64, got "lots"/);
+  });
 });
