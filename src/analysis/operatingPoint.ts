@@ -4,7 +4,7 @@
  * purpose: it diverges exactly when the electro-thermal loop gain ∂P/∂Tj·Rth exceeds one, which
  * is the thermal-runaway condition, so divergence is reported as runaway rather than damped away.
  */
-import { type ElectricalPoint, electricalPoint } from '../model/electrical.ts';
+import { type ElectricalDraft, type ElectricalPoint, buildElectrical, draftElectrical, newElectricalDraft } from '../model/electrical.ts';
 import { type Knobs, type Plant, buildPlant, thermalSpecOf } from '../model/plant.ts';
 import {
   type ThermalInputs,
@@ -78,11 +78,11 @@ export function pointContext(scenario: Scenario): PointContext {
 }
 
 /** Losses routed into the thermal network: device losses at the junctions, a share of the passives at the plate. */
-export function thermalInputsOf(plant: Plant, ep: ElectricalPoint, cond: PointConditions, out?: ThermalInputs): ThermalInputs {
+export function thermalInputsOf(plant: Plant, draft: ElectricalDraft, cond: PointConditions, out?: ThermalInputs): ThermalInputs {
   const r = out ?? { deviceLossW: [0, 0], sinkExtraW: 0, inletC: 0, flowKgPerS: 0, ambientC: 0 };
-  (r.deviceLossW as number[])[0] = ep.leg.hs.totalW;
-  (r.deviceLossW as number[])[1] = ep.leg.ls.totalW;
-  r.sinkExtraW = plant.passiveToPlateFraction * ep.passiveW;
+  (r.deviceLossW as number[])[0] = draft.hsLossW;
+  (r.deviceLossW as number[])[1] = draft.lsLossW;
+  r.sinkExtraW = plant.passiveToPlateFraction * draft.passiveW;
   r.inletC = cond.inletC;
   r.flowKgPerS = cond.flowKgPerS;
   r.ambientC = cond.ambientC;
@@ -145,6 +145,12 @@ function steadyTemps(lt: LinearThermal, t: ThermalInputs): Float64Array {
   return o;
 }
 
+/**
+ * The electro-thermal iteration drafts the electrical point at every step and builds only the
+ * one it returns (see `ElectricalDraft`). Module-level: `operatingPoint` does not re-enter.
+ */
+const draft = newElectricalDraft();
+
 export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?: Partial<PointConditions>): OperatingPoint {
   const { scenario, plant, net } = ctx;
   const k: Knobs = { ...plant.knobs, ...knobs };
@@ -156,8 +162,8 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
   const runawayC = scenario.limits.runawayTjC;
   let tjH = c.inletC;
   let tjL = c.inletC;
-  let ep = electricalPoint(plant, k, tjH, tjL);
-  const tIn = thermalInputsOf(plant, ep, c);
+  draftElectrical(plant, k, tjH, tjL, draft);
+  const tIn = thermalInputsOf(plant, draft, c);
   const lt = linearThermal(ctx, c);
   let temps = steadyTemps(lt, tIn);
   let status: OperatingPoint['status'] = 'ok';
@@ -185,9 +191,11 @@ export function operatingPoint(ctx: PointContext, knobs?: Partial<Knobs>, cond?:
         break;
       }
     } else hotClimbs = 0;
-    ep = electricalPoint(plant, k, tjH, tjL);
-    temps = steadyTemps(lt, thermalInputsOf(plant, ep, c, tIn));
+    draftElectrical(plant, k, tjH, tjL, draft);
+    temps = steadyTemps(lt, thermalInputsOf(plant, draft, c, tIn));
   }
+  // Build the point last drafted: the one whose losses set the final temperatures.
+  const ep = buildElectrical(draft);
   if (it >= MAX_IT && status === 'ok') status = 'unconverged';
   const qCool = heatToCoolantW(net, temps, c.inletC, c.flowKgPerS);
   // The converter's own share: the network is linear, so subtract what the coolant would pick

@@ -39,21 +39,25 @@ export interface GateDriveParams {
 
 /** Temperature factor (1+α)^(Tj−25) (Graovac, Pürschel, Kiep, Infineon AN "MOSFET Power Losses Calculation Using the Data-Sheet Parameters", 2006). */
 // Hot path: a leg evaluation asks for the same (α, Tj) many times, alternating between the two
-// devices' junction temperatures, so two slots (least recently used replaced) keep both.
-let memoAlphaA = NaN, memoTjA = NaN, memoFactorA = 1;
-let memoAlphaB = NaN, memoTjB = NaN, memoFactorB = 1;
+// devices' junction temperatures, so two slots (least recently used replaced) keep both. The
+// slots live in a Float64Array, not in module-level `let`s: a double stored into a module
+// variable is boxed in a fresh heap number on every store, and this memo is written on nearly
+// every call.
+// Layout: [α_A, Tj_A, factor_A, α_B, Tj_B, factor_B]; slot A is the most recently used.
+const tempFactorMemo = new Float64Array([NaN, NaN, 1, NaN, NaN, 1]);
 export function rdsTempFactor(dev: DeviceParams, tjC: number): number {
+  const m = tempFactorMemo;
   const alpha = dev.rdsTempCoeffPerK;
-  if (alpha === memoAlphaA && tjC === memoTjA) return memoFactorA;
-  if (alpha !== memoAlphaB || tjC !== memoTjB) {
-    memoAlphaB = alpha;
-    memoTjB = tjC;
-    memoFactorB = Math.pow(1 + alpha, tjC - 25);
+  if (alpha === m[0] && tjC === m[1]) return m[2];
+  if (alpha !== m[3] || tjC !== m[4]) {
+    m[3] = alpha;
+    m[4] = tjC;
+    m[5] = Math.pow(1 + alpha, tjC - 25);
   }
   // Promote the hit (or the new entry) to slot A.
-  const f = memoFactorB;
-  memoAlphaB = memoAlphaA; memoTjB = memoTjA; memoFactorB = memoFactorA;
-  memoAlphaA = alpha; memoTjA = tjC; memoFactorA = f;
+  const f = m[5];
+  m[3] = m[0]; m[4] = m[1]; m[5] = m[2];
+  m[0] = alpha; m[1] = tjC; m[2] = f;
   return f;
 }
 
@@ -69,8 +73,12 @@ export function kAt(dev: DeviceParams, tjC: number): number {
 
 /** Saturation current k/2·Vov² (Shichman & Hodges, IEEE JSSC SC-3, 1968); 0 below threshold. */
 export function saturationCurrentA(dev: DeviceParams, vgsV: number, tjC: number): number {
-  const vov = vgsV - vthAt(dev, tjC);
-  return vov > 0 ? 0.5 * kAt(dev, tjC) * vov * vov : 0;
+  return saturationCurrentAt(kAt(dev, tjC), vgsV - vthAt(dev, tjC));
+}
+
+/** `saturationCurrentA` with k at Tj and the overdrive Vgs − Vth(Tj) already evaluated (see `channelDropAt`). */
+export function saturationCurrentAt(kT: number, vov: number): number {
+  return vov > 0 ? 0.5 * kT * vov * vov : 0;
 }
 
 /**
@@ -91,7 +99,7 @@ export function channelDropV(dev: DeviceParams, iA: number, vgsV: number, tjC: n
 export function channelDropAt(kT: number, vov: number, rs: number, lambdaPerV: number, iA: number, vCapV: number): number {
   let vch: number;
   if (vov <= 0) return iA > 0 ? vCapV : 0;
-  const isat = 0.5 * kT * vov * vov;
+  const isat = saturationCurrentAt(kT, vov);
   if (iA < isat) {
     vch = vov - Math.sqrt(vov * vov - (2 * iA) / kT);
   } else {

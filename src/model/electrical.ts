@@ -66,8 +66,10 @@ export function solveIncreasing(g: (d: number) => number, lo: number, hi: number
   // unconverged): with the root inside, the secant path is the same as with them evaluated first,
   // and two leg evaluations per solve are saved. A bound evaluated that shows the root outside
   // returns that bound, as an up-front check would have.
-  let a = lo;
-  let b = hi;
+  // `+lo`, `+hi`: with the bare arguments in the bracket, the optimizing compiler kept the bounds
+  // as generic values and boxed every computed update in a fresh heap number.
+  let a = +lo;
+  let b = +hi;
   let ga = NaN;
   let gb = NaN;
   let aKnown = false;
@@ -111,74 +113,142 @@ export function solveIncreasing(g: (d: number) => number, lo: number, hi: number
   return { d: x1, ok: Math.abs(g1) <= tolV * 1e3, g: g1 };
 }
 
-function capState(c: { esrOhm: number; rippleRatingA: number }, msA2: number): CapacitorState {
+/** Fill `out` with a capacitor's ripple state at mean-square ripple current `msA2`. */
+function setCapState(c: { esrOhm: number; rippleRatingA: number }, msA2: number, out: CapacitorState): CapacitorState {
   const rms = Math.sqrt(Math.max(msA2, 0));
-  return { rmsA: rms, lossW: c.esrOhm * rms * rms, ratingA: c.rippleRatingA, utilization: rms / c.rippleRatingA };
+  out.rmsA = rms;
+  out.lossW = c.esrOhm * rms * rms;
+  out.ratingA = c.rippleRatingA;
+  out.utilization = rms / c.rippleRatingA;
+  return out;
+}
+
+function newCapState(): CapacitorState {
+  return { rmsA: 0, lossW: 0, ratingA: 0, utilization: 0 };
+}
+
+function capState(c: { esrOhm: number; rippleRatingA: number }, msA2: number): CapacitorState {
+  return setCapState(c, msA2, newCapState());
 }
 
 function snapshot(r: LegResult): LegResult {
   return { ...r, hs: { ...r.hs }, ls: { ...r.ls } };
 }
 
-/** Scratch for the duty solve; every returned point holds its own snapshot. */
-const buckScratch = newLegResult();
+/**
+ * A solved point before it is built into an `ElectricalPoint`: the losses the thermal network
+ * takes, and (buck) the solve's outcome with the leg and the passives in reusable storage. The
+ * electro-thermal iteration of the operating point drafts a point at every step but builds only
+ * the last one: building (a snapshot of the leg, capacitor states, a copy of the knobs) at every
+ * step was a fifth of the garbage a device-spread study produced. A draft builds one point.
+ */
+export interface ElectricalDraft {
+  /** Loss in the high-side and low-side device (junction heat) and in the passives. */
+  hsLossW: number;
+  lsLossW: number;
+  passiveW: number;
+  plant: Plant | null;
+  k: Knobs | null;
+  /** Half-bridge: built while solving (its phase average assembles the point anyway). */
+  point: ElectricalPoint | null;
+  vinV: number;
+  voutV: number;
+  ioA: number;
+  duty: number;
+  regulated: boolean;
+  readonly leg: LegResult;
+  inductorCopperW: number;
+  inductorCoreW: number;
+  acCopperW: number;
+  readonly capOut: CapacitorState;
+  readonly capIn: CapacitorState;
+}
+
+export function newElectricalDraft(): ElectricalDraft {
+  return {
+    hsLossW: 0, lsLossW: 0, passiveW: 0, plant: null, k: null, point: null, vinV: 0, voutV: 0, ioA: 0, duty: 0,
+    regulated: false, leg: newLegResult(), inductorCopperW: 0, inductorCoreW: 0, acCopperW: 0, capOut: newCapState(), capIn: newCapState(),
+  };
+}
 
 function loadCurrentA(b: BuckParams, vo: number): number {
   return 'rOhm' in b.load ? vo / b.load.rOhm : b.load.iA;
 }
 
 /** State of the buck duty solve, read by `buckDutyResidual` (no closure per call on the hot path). */
-const buckSolve = { plant: null as Plant | null, k: null as Knobs | null, vin: 0, io: 0, vFar: 0, lH: 1, tjH: 25, tjL: 25 };
+const buckSolve = { plant: null as Plant | null, k: null as Knobs | null, vin: 0, io: 0, vFar: 0, lH: 1, tjH: 25, tjL: 25, leg: null as LegResult | null };
 
 /** Node average minus the far-end voltage at duty d: zero when the output is regulated. */
 function buckDutyResidual(d: number): number {
   const st = buckSolve;
-  return legAt(st.plant as Plant, st.k as Knobs, st.vin, st.io, st.vFar, st.lH, d, st.tjH, st.tjL, buckScratch).vNodeMeanV - st.vFar;
+  return legAt(st.plant as Plant, st.k as Knobs, st.vin, st.io, st.vFar, st.lH, d, st.tjH, st.tjL, st.leg as LegResult).vNodeMeanV - st.vFar;
 }
 
-/** Buck, load from the plant unless `loadOverride` gives the load resistance or current. */
-export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number): ElectricalPoint {
+/**
+ * Duty pinned at a limit: the output settles where the node average meets the branch drop.
+ * Returns that output voltage, with `leg` evaluated there. A function of its own so that the
+ * regulated path, taken at nearly every call, creates no closure context.
+ */
+function pinnedDutyOutputV(plant: Plant, k: Knobs, vin: number, rL: number, duty: number, voGuessV: number, tjH: number, tjL: number, leg: LegResult): number {
+  const b = plant.conv as BuckParams;
+  const h = (v: number): number => {
+    const i = loadCurrentA(b, v);
+    return v + i * rL - legAt(plant, k, vin, i, v + i * rL, b.lH, duty, tjH, tjL, leg).vNodeMeanV;
+  };
+  const vo = solveIncreasing(h, 0, vin, voGuessV, 1e-12 * vin).d;
+  const io = loadCurrentA(b, vo);
+  legAt(plant, k, vin, io, vo + io * rL, b.lH, duty, tjH, tjL, leg);
+  return vo;
+}
+
+/** Buck, load from the plant; `vinOverrideV` replaces the input voltage. Solves into `out`. */
+function draftBuck(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV: number | undefined, out: ElectricalDraft): ElectricalDraft {
   const b = plant.conv as BuckParams;
   const vin = vinOverrideV ?? b.vinV;
   const rL = dcrOhm(b.dcr20Ohm, b.inductorTempC);
-  const leg = buckScratch;
+  const leg = out.leg;
   let vo = b.voutRefV;
   let io = loadCurrentA(b, vo);
   const st = buckSolve;
-  st.plant = plant; st.k = k; st.vin = vin; st.io = io; st.vFar = vo + io * rL; st.lH = b.lH; st.tjH = tjH; st.tjL = tjL;
+  st.plant = plant; st.k = k; st.vin = vin; st.io = io; st.vFar = vo + io * rL; st.lH = b.lH; st.tjH = tjH; st.tjL = tjL; st.leg = leg;
   const sol = solveIncreasing(buckDutyResidual, plant.dutyMin, plant.dutyMax, (vo + io * rL) / vin, 1e-12 * vin);
-  st.plant = st.k = null;
-  let duty = sol.d;
-  let regulated = sol.ok;
+  st.plant = st.k = st.leg = null;
+  const duty = sol.d;
+  const regulated = sol.ok;
   if (!regulated) {
-    // Duty pinned at a limit: the output settles where the node average meets the branch drop.
-    const h = (v: number): number => {
-      const i = loadCurrentA(b, v);
-      return v + i * rL - legAt(plant, k, vin, i, v + i * rL, b.lH, duty, tjH, tjL, leg).vNodeMeanV;
-    };
-    const s2 = solveIncreasing(h, 0, vin, vo, 1e-12 * vin);
-    vo = s2.d;
+    vo = pinnedDutyOutputV(plant, k, vin, rL, duty, vo, tjH, tjL, leg);
     io = loadCurrentA(b, vo);
-    legAt(plant, k, vin, io, vo + io * rL, b.lH, duty, tjH, tjL, leg);
   }
   // Regulated: solveIncreasing evaluated g last at the returned duty, so `leg` holds that point.
-  return finishBuck(plant, b, k, vin, vo, io, rL, duty, regulated, leg);
+  out.plant = plant; out.k = k; out.point = null;
+  out.vinV = vin; out.voutV = vo; out.ioA = io; out.duty = duty; out.regulated = regulated;
+  out.inductorCopperW = rL * leg.iMsA2;
+  out.inductorCoreW = coreLossW(b.core, b.lH, leg.ripplePpA, k.fswHz, leg.riseFraction);
+  setCapState(b.cout, leg.iMsA2 - io * io, out.capOut);
+  setCapState(b.cin, leg.iBusMsA2 - leg.iBusCondMeanA * leg.iBusCondMeanA, out.capIn);
+  out.acCopperW = rL * (leg.iMsA2 - io * io);
+  out.passiveW = out.inductorCopperW + out.inductorCoreW + out.capOut.lossW + out.capIn.lossW;
+  out.hsLossW = leg.hs.totalW;
+  out.lsLossW = leg.ls.totalW;
+  return out;
 }
 
-function finishBuck(plant: Plant, b: BuckParams, k: Knobs, vin: number, vo: number, io: number, rL: number, duty: number, regulated: boolean, leg: LegResult): ElectricalPoint {
-  const copperW = rL * leg.iMsA2;
-  const coreW = coreLossW(b.core, b.lH, leg.ripplePpA, k.fswHz, leg.riseFraction);
-  const capOut = capState(b.cout, leg.iMsA2 - io * io);
-  const capIn = capState(b.cin, leg.iBusMsA2 - leg.iBusCondMeanA * leg.iBusCondMeanA);
-  const acCopperW = rL * (leg.iMsA2 - io * io);
+function buildBuck(d: ElectricalDraft, plant: Plant, k: Knobs): ElectricalPoint {
+  const b = plant.conv as BuckParams;
+  const leg = d.leg;
+  const vin = d.vinV, vo = d.voutV, io = d.ioA;
+  const copperW = d.inductorCopperW;
+  const coreW = d.inductorCoreW;
+  const capOut = { ...d.capOut };
+  const capIn = { ...d.capIn };
   const pNode = leg.vNodeMeanV * io;
-  const passiveW = copperW + coreW + capOut.lossW + capIn.lossW;
-  const pinW = pNode + leg.semiW + leg.gateDriverW + acCopperW + coreW + capOut.lossW + capIn.lossW;
+  const passiveW = d.passiveW;
+  const pinW = pNode + leg.semiW + leg.gateDriverW + d.acCopperW + coreW + capOut.lossW + capIn.lossW;
   const poutW = vo * io;
   const totalLossW = leg.semiW + leg.gateDriverW + passiveW;
   const ripplePp = leg.ripplePpA / (8 * b.cout.cF * k.fswHz) + leg.ripplePpA * b.cout.esrOhm;
   return {
-    topology: 'buck', duty, regulated, vBusV: vin, vOutV: vo, iMeanA: io, knobs: { ...k }, leg: snapshot(leg),
+    topology: 'buck', duty: d.duty, regulated: d.regulated, vBusV: vin, vOutV: vo, iMeanA: io, knobs: { ...k }, leg: snapshot(leg),
     inductorCopperW: copperW, inductorCoreW: coreW, deltaBT: b.core ? deltaBT(b.core, b.lH, leg.ripplePpA) : 0,
     bPeakT: b.core ? peakFluxT(b.core, b.lH, Math.max(Math.abs(leg.iPeakA), Math.abs(leg.iValleyA))) : NaN,
     bSatT: b.core ? (b.core.bSatT ?? Infinity) : NaN,
@@ -186,6 +256,14 @@ function finishBuck(plant: Plant, b: BuckParams, k: Knobs, vin: number, vo: numb
     efficiency: pinW > 0 ? poutW / pinW : 0,
     balanceResidual: pinW > 0 ? Math.abs(pinW - poutW - totalLossW) / pinW : 0,
   };
+}
+
+/** Scratch draft of `electricalPoint` and `buckElectrical` (built before they return). */
+const pointDraft = newElectricalDraft();
+
+/** Buck, load from the plant; `vinOverrideV` replaces the input voltage. */
+export function buckElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, vinOverrideV?: number): ElectricalPoint {
+  return buildElectrical(draftBuck(plant, k, tjH, tjL, vinOverrideV, pointDraft));
 }
 
 const PHASES = 24;
@@ -268,6 +346,28 @@ export function halfBridgeElectrical(plant: Plant, k: Knobs, tjH: number, tjL: n
   };
 }
 
+/** Solve the point at (k, Tj) into `out` without building it (see `ElectricalDraft`). */
+export function draftElectrical(plant: Plant, k: Knobs, tjH: number, tjL: number, out: ElectricalDraft): ElectricalDraft {
+  if (plant.conv.kind === 'buck') return draftBuck(plant, k, tjH, tjL, undefined, out);
+  const point = halfBridgeElectrical(plant, k, tjH, tjL);
+  out.plant = plant; out.k = k; out.point = point;
+  out.hsLossW = point.leg.hs.totalW;
+  out.lsLossW = point.leg.ls.totalW;
+  out.passiveW = point.passiveW;
+  return out;
+}
+
+/**
+ * The point a draft holds, as a new object independent of the draft. A draft builds once: its
+ * references to the plant and knobs are released here (a module-level draft keeps nothing alive).
+ */
+export function buildElectrical(d: ElectricalDraft): ElectricalPoint {
+  const { plant, k, point } = d;
+  if (!plant || !k) throw new Error('buildElectrical: no drafted point to build (a draft builds one point)');
+  d.plant = d.k = d.point = null;
+  return point ?? buildBuck(d, plant, k);
+}
+
 export function electricalPoint(plant: Plant, k: Knobs, tjH: number, tjL: number): ElectricalPoint {
-  return plant.conv.kind === 'buck' ? buckElectrical(plant, k, tjH, tjL) : halfBridgeElectrical(plant, k, tjH, tjL);
+  return buildElectrical(draftElectrical(plant, k, tjH, tjL, pointDraft));
 }

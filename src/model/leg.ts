@@ -23,7 +23,7 @@ import {
   newSwitchTiming,
   qrrCoulomb,
   rdsTempFactor,
-  saturationCurrentA,
+  saturationCurrentAt,
   switchTiming,
   turnOffEnergyJ,
   turnOnEnergyJ,
@@ -141,35 +141,51 @@ function clearLoss(d: DeviceLoss): void {
   d.conductionW = d.diodeW = d.turnOnW = d.turnOffW = d.cossW = d.recoveryW = d.gateW = d.shootThroughW = d.totalW = 0;
 }
 
-function sumLoss(d: DeviceLoss): number {
+function sumLoss(d: DeviceLoss): void {
   d.totalW = d.conductionW + d.diodeW + d.turnOnW + d.turnOffW + d.cossW + d.recoveryW + d.gateW + d.shootThroughW;
-  return d.totalW;
 }
 
 // 4-point Gauss–Legendre on [0, 1]: exact for the mean of polynomials up to degree 7.
 const GL_X = [0.0694318442029737, 0.3300094782075719, 0.6699905217924281, 0.9305681557970263];
 const GL_W = [0.1739274225687269, 0.3260725774312731, 0.3260725774312731, 0.1739274225687269];
 
-/** Per-interval conduction means: loss (W), drop (V, signed as seen from the node) and current. */
-interface Ramp { lossW: number; dropV: number; iMeanA: number; iMsA2: number }
-const rampHs: Ramp = { lossW: 0, dropV: 0, iMeanA: 0, iMsA2: 0 };
-const rampLs: Ramp = { lossW: 0, dropV: 0, iMeanA: 0, iMsA2: 0 };
+/**
+ * A linear current ramp `fromA` → `toA` over one conduction interval, set by the caller, and its
+ * conduction means: loss (W), drop (V, signed as seen from the node) and current; with the
+ * channel's saturation current at the same gate drive and Tj. The end currents travel in the
+ * object rather than as arguments (and the saturation current comes back in it): doubles passed
+ * to or returned from a call the compiler does not inline are boxed in fresh heap numbers, and
+ * this runs several times per evaluation.
+ */
+interface Ramp { fromA: number; toA: number; lossW: number; dropV: number; iMeanA: number; iMsA2: number; iSatA: number }
+const rampHs: Ramp = { fromA: 0, toA: 0, lossW: 0, dropV: 0, iMeanA: 0, iMsA2: 0, iSatA: 0 };
+const rampLs: Ramp = { fromA: 0, toA: 0, lossW: 0, dropV: 0, iMeanA: 0, iMsA2: 0, iSatA: 0 };
 
 /**
- * Mean over a linear current ramp i0 → i1 of a device's conduction: `hs` true for the high
- * side (positive current is its first quadrant). Splits at a zero crossing so the quadrature
- * never straddles the channel/diode change of law.
+ * Mean over the current ramp in `out` of a device's conduction, written back into `out`: `hs`
+ * true for the high side (positive current is its first quadrant), at that device's junction
+ * temperature and the gate drive in `x`. Splits at a zero crossing so the quadrature never
+ * straddles the channel/diode change of law.
  */
-function conductRamp(p: LegParams, hs: boolean, i0: number, i1: number, vgs: number, tjC: number, vCap: number, out: Ramp): Ramp {
+function conductRamp(p: LegParams, hs: boolean, x: LegInput, out: Ramp): Ramp {
+  const i0 = out.fromA;
+  const i1 = out.toA;
   out.lossW = out.dropV = 0;
   out.iMeanA = 0.5 * (i0 + i1);
   out.iMsA2 = (i0 * i0 + i0 * i1 + i1 * i1) / 3;
+  const vgs = x.vDriveV;
+  const tjC = hs ? x.tjHsC : x.tjLsC;
+  // Drops are capped at the bus. The cap is computed here, not passed in: a plain argument
+  // reaching `v` below next to computed drops made the optimizing compiler box every drop of
+  // the quadrature in a fresh heap number (about half a kilobyte of garbage per leg evaluation).
+  const vCap = Math.max(x.vBusV, 1e-3);
   const dev = hs ? p.hs : p.ls;
   const chOn = hs || p.lowSideMode === 'sync';
   // Temperature-dependent channel constants once per ramp (same arithmetic as channelDropV).
   const kT = kAt(dev, tjC);
   const vov = vgs - vthAt(dev, tjC);
   const rs = dev.rSeries25Ohm * rdsTempFactor(dev, tjC);
+  out.iSatA = saturationCurrentAt(kT, vov);
   const segs = i0 * i1 < 0 ? 2 : 1;
   const xz = segs === 2 ? i0 / (i0 - i1) : 1;
   for (let s = 0; s < segs; s++) {
@@ -244,7 +260,8 @@ function commutate(p: LegParams, toHigh: boolean, i: number, gapS: number, vBus:
   const startV = toHigh ? 0 : vBus;
   const targetV = toHigh ? vBus : 0;
   // Current that swings the node toward the incoming rail: negative current lifts it, positive pulls it down.
-  const helping = toHigh ? -i : i;
+  // A product, not `toHigh ? -i : i`: the bare argument in one arm made the compiler box −i.
+  const helping = (toHigh ? -1 : 1) * i;
   const mag = Math.abs(i);
   out.areaVs = out.diodeS = out.eOnJ = out.eOffJ = out.eCossJ = out.eRrJ = out.eDiodeJ = 0;
   out.hardInIsHs = toHigh;
@@ -308,7 +325,6 @@ function gateShare(p: LegParams, dev: DeviceParams): number {
 export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResult {
   const T = 1 / x.fswHz;
   const vBus = x.vBusV;
-  const vCap = Math.max(vBus, 1e-3);
   const vg = x.vDriveV;
   const diodeMode = p.lowSideMode === 'diode';
   clearLoss(out.hs);
@@ -348,7 +364,8 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     const gF = Math.min(Math.max(gapFall, 0), (1 - x.duty) * T);
     tHsOn = x.duty * T - gR;
     tLsOn = (1 - x.duty) * T - gF;
-    conductRamp(p, true, iEndLow, iEndHigh, vg, tjH, vCap, rampHs);
+    rampHs.fromA = iEndLow; rampHs.toA = iEndHigh;
+    conductRamp(p, true, x, rampHs);
     const vHigh = vBus + rampHs.dropV;
     delta = ((vHigh - x.vFarV) * tHsOn) / x.lH;
     // Diode mode cannot carry negative current: discontinuous conduction (Sun, Mitchell, Greuel,
@@ -374,8 +391,10 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     d2 = ipk > 0 ? Math.max(0, Math.min((2 * iM) / ipk - x.duty, 1 - x.duty)) : 0;
     iPeak = ipk;
     iValley = 0;
-    conductRamp(p, true, 0, ipk, vg, tjH, vCap, rampHs);
-    conductRamp(p, false, ipk, 0, vg, tjL, vCap, rampLs);
+    rampHs.fromA = 0; rampHs.toA = ipk;
+    conductRamp(p, true, x, rampHs);
+    rampLs.fromA = ipk; rampLs.toA = 0;
+    conductRamp(p, false, x, rampLs);
     const vHigh = vBus + rampHs.dropV;
     const vLow = rampLs.dropV;
     vNode = vHigh * x.duty + vLow * d2 + x.vFarV * (1 - x.duty - d2);
@@ -399,8 +418,10 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     // estimate): the high side turns off at the peak, the low side at the valley.
     switchTiming(p.hs, p.gate, vg, vBus, Math.max(iPeak, 0), tjH, tHs);
     switchTiming(p.ls, p.gate, vg, vBus, Math.max(-iValley, 0), tjL, tLs);
-    conductRamp(p, true, iValley, iPeak, vg, tjH, vCap, rampHs);
-    conductRamp(p, false, iPeak, iValley, vg, tjL, vCap, rampLs);
+    rampHs.fromA = iValley; rampHs.toA = iPeak;
+    conductRamp(p, true, x, rampHs);
+    rampLs.fromA = iPeak; rampLs.toA = iValley;
+    conductRamp(p, false, x, rampLs);
     const fHs = tHsOn / T;
     const fLs = tLsOn / T;
     out.hs.conductionW = rampHs.lossW * fHs;
@@ -438,7 +459,7 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
     // E = ½·Lσ·Isat² + V·Isat·(Δt − Lσ·Isat/V). Each edge with its own overlap. Indicative only.
     const overlap = Math.max(-gapRise, -gapFall, 0);
     if (overlap > 0) {
-      const iLimit = Math.min(saturationCurrentA(p.hs, vg, tjH), saturationCurrentA(p.ls, vg, tjL));
+      const iLimit = Math.min(rampHs.iSatA, rampLs.iSatA);
       const lS = p.commutationLoopH;
       const shootEnergyJ = (dtS: number): number => {
         if (!(dtS > 0)) return 0;
@@ -472,13 +493,16 @@ export function evaluateLeg(p: LegParams, x: LegInput, out: LegResult): LegResul
   out.iBusCondMeanA = busMean;
   out.iBusMsA2 = busMs;
   out.dcm = dcm;
-  const hsIsat = saturationCurrentA(p.hs, vg, tjH);
-  const lsIsat = saturationCurrentA(p.ls, vg, tjL);
+  // Saturation currents at the gate drive and each Tj, from the last ramps (evaluated there).
+  const hsIsat = rampHs.iSatA;
+  const lsIsat = rampLs.iSatA;
   out.hsSaturated = Math.max(iPeak, iValley) > hsIsat;
   out.lsSaturated = !diodeMode && -Math.min(iPeak, iValley) > lsIsat;
   // tHs/tLs now hold the timings at the settled peak (high side) and valley (low side).
   out.hsCannotTurnOn = !tHs.canTurnOn;
   out.lsCannotTurnOn = !diodeMode && !tLs.canTurnOn;
-  out.semiW = sumLoss(out.hs) + sumLoss(out.ls);
+  sumLoss(out.hs);
+  sumLoss(out.ls);
+  out.semiW = out.hs.totalW + out.ls.totalW;
   return out;
 }

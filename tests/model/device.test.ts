@@ -12,6 +12,7 @@ import {
   rdsOnOhm,
   rdsTempFactor,
   saturationCurrentA,
+  saturationCurrentAt,
   switchTiming,
   turnOffEnergyJ,
   turnOnEnergyJ,
@@ -117,6 +118,14 @@ describe('square-law channel (Shichman & Hodges, IEEE JSSC SC-3, 1968)', () => {
     const below = channelDropV(si, 0.55 * isat, vgs, 25, 100) - channelDropV(si, 0.5 * isat, vgs, 25, 100);
     expect(below).toBeLessThan(0.1);
     expect(channelDropV(si, 2 * isat, vgs, 25, 48)).toBe(48);
+  });
+
+  it('saturationCurrentAt with k(Tj) and Vgs − Vth(Tj) evaluated is saturationCurrentA, 0 at and below threshold', () => {
+    for (const [vgs, tj] of [[4.5, 25], [10, 125], [3, -40]] as const) {
+      expect(saturationCurrentAt(kAt(si, tj), vgs - vthAt(si, tj))).toBe(saturationCurrentA(si, vgs, tj));
+    }
+    expect(saturationCurrentAt(kAt(si, 25), 0)).toBe(0);
+    expect(saturationCurrentAt(kAt(si, 25), -1)).toBe(0);
   });
 
   it('below the zero-temperature-coefficient point the saturation current rises with Tj, above it it falls (property)', () => {
