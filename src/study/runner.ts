@@ -7,7 +7,7 @@
  * same study gives the same bytes on any machine, with any worker count or shard split.
  */
 import { createHash } from 'node:crypto';
-import { mkdir, open, readFile, truncate } from 'node:fs/promises';
+import { type FileHandle, mkdir, open, readFile, truncate } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -152,7 +152,7 @@ export interface RunStudyOptions {
   progress?: StudyProgress;
   /** Aborting stops dispatch; samples in flight finish and are written. */
   signal?: AbortSignal;
-  /** Samples per worker task (default: sized from the study, 1..16). */
+  /** Samples per worker task (default: sized from the study, 1..64). */
   batchSize?: number;
 }
 
@@ -250,6 +250,30 @@ export async function runStudy(opts: RunStudyOptions): Promise<RunStudyResult> {
   return result;
 }
 
+/** Append every byte (a write may take fewer than it is given). */
+async function appendAll(fh: FileHandle, bytes: Uint8Array): Promise<void> {
+  for (let off = 0; off < bytes.length; ) off += (await fh.write(bytes, off, bytes.length - off)).bytesWritten;
+}
+
+/**
+ * The worker pool of a study: `threads` threads, each evaluating batches of sample indexes of
+ * this spec on this scenario (`worker.ts`). Also used by the benchmark, so it measures the pool
+ * the studies run on.
+ */
+export function createStudyPool(spec: StudySpec, scenario: Scenario, threads: number): Piscina {
+  const isTs = import.meta.url.endsWith('.ts');
+  const workerData: StudyWorkerData = { specInput: spec.input, scenarioInput: scenario.input };
+  return new Piscina({
+    filename: fileURLToPath(new URL(isTs ? './workerBoot.mjs' : './worker.js', import.meta.url)),
+    minThreads: threads,
+    maxThreads: threads,
+    idleTimeout: 60_000,
+    // The boot module registers the TypeScript loader itself; nothing inherited is needed.
+    execArgv: [],
+    workerData,
+  });
+}
+
 async function computeSamples(
   opts: RunStudyOptions,
   resultsPath: string,
@@ -257,21 +281,15 @@ async function computeSamples(
   resumed: number,
   shardTotal: number,
 ): Promise<{ computed: number; interrupted: boolean; timing: { t0: number; t1: number; tFirst: number; firstCount: number } }> {
-  const batchSize = opts.batchSize ?? Math.min(16, Math.max(1, Math.ceil(todo.length / (Math.max(1, opts.workers) * 32))));
+  // At least 32 tasks per worker (progress, balance), at most 64 samples a task: each task costs the
+  // main thread a message and a file append, which for point samples would otherwise take a share
+  // of a core that the workers need.
+  const batchSize = opts.batchSize ?? Math.min(64, Math.max(1, Math.ceil(todo.length / (Math.max(1, opts.workers) * 32))));
   const batches: number[][] = [];
   for (let b = 0; b < todo.length; b += batchSize) batches.push(todo.slice(b, b + batchSize));
   // No more threads than batches: each thread pays the TypeScript start-up.
   const workers = Math.max(1, Math.min(Math.floor(opts.workers), batches.length));
-  const isTs = import.meta.url.endsWith('.ts');
-  const workerData: StudyWorkerData = { specInput: opts.spec.input, scenarioInput: opts.scenario.input };
-  const pool = new Piscina({
-    filename: fileURLToPath(new URL(isTs ? './worker.ts' : './worker.js', import.meta.url)),
-    minThreads: workers,
-    maxThreads: workers,
-    idleTimeout: 60_000,
-    execArgv: isTs ? ['--import', 'tsx'] : [],
-    workerData,
-  });
+  const pool = createStudyPool(opts.spec, opts.scenario, workers);
   const fh = await open(resultsPath, 'a');
   let computed = 0;
   let stopped = false;
@@ -296,10 +314,10 @@ async function computeSamples(
           inFlight++;
           pool
             .run(batch)
-            .then((text: string) => {
+            .then((text: Uint8Array) => {
               // Appends are chained so lines never interleave; one write per batch.
               writing = writing.then(async () => {
-                await fh.write(text);
+                await appendAll(fh, text);
                 computed += batch.length;
                 if (tFirst === 0) {
                   tFirst = performance.now();
