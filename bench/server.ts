@@ -20,6 +20,8 @@ const TARGET_FRAMES_PER_S = 20;
 
 interface ClientReport {
   wallS: number;
+  /** CPU the clients' own process used over the window (s): on this machine it competes with the server. */
+  clientCpuS: number;
   sessions: Array<{ frames: number; framesPerS: number; simSpeed: number; reportedSpeed: number; kBytesPerS: number; merged: number; droppedRecords: number; errors: number }>;
 }
 
@@ -83,13 +85,15 @@ export async function benchServer(): Promise<BenchResult> {
       kBytesPerSessionPerS: kbps,
       serverCpuS: cpuS,
       serverCpuPercentOfOneCore: (100 * cpuS) / wallS,
+      sessionThreads: THREADS,
+      clientCpuPercentOfOneCore: (100 * report.clientCpuS) / wallS,
       serverRssMB: { atStart: mem0 / 1e6, peak: peakRss / 1e6 },
       mergedFrames: report.sessions.reduce((a, s) => a + s.merged, 0),
       errors: report.sessions.reduce((a, s) => a + s.errors, 0),
     };
     console.log(
       `server: ${SESSIONS} sessions at ${SPEED}× for ${wallS.toFixed(1)} s — frames/s per session ${fps.min.toFixed(1)}/${fps.mean.toFixed(1)}/${fps.max.toFixed(1)} (min/mean/max), ` +
-        `simulated speed ${speed.min.toFixed(0)}/${speed.mean.toFixed(0)}/${speed.max.toFixed(0)}×, server CPU ${details.serverCpuPercentOfOneCore.toFixed(0)} % of one core, peak RSS ${(peakRss / 1e6).toFixed(0)} MB`,
+        `simulated speed ${speed.min.toFixed(0)}/${speed.mean.toFixed(0)}/${speed.max.toFixed(0)}×, server CPU ${details.serverCpuPercentOfOneCore.toFixed(0)} % of one core (${THREADS} session threads; the clients' process ${details.clientCpuPercentOfOneCore.toFixed(0)} %), peak RSS ${(peakRss / 1e6).toFixed(0)} MB`,
     );
     return {
       id: 'server',

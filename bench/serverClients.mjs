@@ -36,9 +36,11 @@ function client(i) {
 const sessions = await Promise.all(Array.from({ length: n }, (_, i) => client(i)));
 process.stdout.write('started\n');
 const t0 = performance.now();
+const cpu0 = process.cpuUsage();
 for (const s of sessions) s.t0 = t0;
 await new Promise((r) => setTimeout(r, seconds * 1000));
 const t1 = performance.now();
+const cpu = process.cpuUsage(cpu0);
 for (const s of sessions) s.t1 = t1;
 const wallS = (t1 - t0) / 1000;
 const out = sessions.map((s) => ({
@@ -52,4 +54,4 @@ const out = sessions.map((s) => ({
   errors: s.errors,
 }));
 for (const s of sessions) s.ws.terminate();
-process.stdout.write(`${JSON.stringify({ wallS, sessions: out })}\n`);
+process.stdout.write(`${JSON.stringify({ wallS, clientCpuS: (cpu.user + cpu.system) / 1e6, sessions: out })}\n`);

@@ -12,6 +12,14 @@ export interface SchedulerOptions {
   /** Compute budget per period at most (ms). */
   maxBudgetMs: number;
   now(): number;
+  /**
+   * The budget shrinks while a round (with its lateness) takes more than this share of the
+   * period, and grows back below `growBelow`. The main thread keeps room for its sockets (0.9 and
+   * 0.75, the defaults); a session host has nothing else to serve and lets rounds fill the period
+   * (1.2 and 1.0): under CPU contention it then takes what the OS gives instead of idling.
+   */
+  shrinkAbove?: number;
+  growBelow?: number;
 }
 
 export class TickScheduler {
@@ -87,8 +95,8 @@ export class TickScheduler {
     // work on this thread) fills the period, grow it back when there is room.
     const period = this.periodMs;
     this.loadMs = 0.7 * this.loadMs + 0.3 * (now() - t0 + lateMs);
-    if (this.loadMs > 0.9 * period) this.budgetMs = Math.max(2, this.budgetMs * 0.85);
-    else if (this.loadMs < 0.75 * period) this.budgetMs = Math.min(this.opts.maxBudgetMs, this.budgetMs * 1.1);
+    if (this.loadMs > (this.opts.shrinkAbove ?? 0.9) * period) this.budgetMs = Math.max(2, this.budgetMs * 0.85);
+    else if (this.loadMs < (this.opts.growBelow ?? 0.75) * period) this.budgetMs = Math.min(this.opts.maxBudgetMs, this.budgetMs * 1.1);
     this.dueMs = Math.max(this.dueMs + period, now());
     if (this.sessions.length > 0) this.arm();
     else this.timer = undefined;

@@ -128,8 +128,8 @@ export async function startServer(opts: ServeOptions = {}): Promise<RunningServe
             frameHz,
             maxPointsPerFrame,
             traceMaxRecords,
-            // A host thread has no sockets to serve between rounds: its sessions may use 90 % of the period.
-            tickBudgetMs: opts.tickBudgetMs ?? 0.9 * (1000 / frameHz),
+            // A host thread has no sockets to serve between rounds: its sessions may use the period.
+            tickBudgetMs: opts.tickBudgetMs ?? 1000 / frameHz,
             frameHighWaterBytes: limits.frameHighWaterBytes,
           },
           log,

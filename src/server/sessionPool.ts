@@ -44,7 +44,7 @@ export interface SessionTransport {
 type ToHostRequest = Extract<ToHost, { req: number }> extends infer R ? (R extends { req: number } ? Omit<R, 'req'> : never) : never;
 
 const FROM_TS = import.meta.url.endsWith('.ts');
-const HOST_FILE = FROM_TS ? './sessionHostBoot.cjs' : './sessionHost.js';
+const HOST_FILE = FROM_TS ? './sessionHostBoot.mjs' : './sessionHost.js';
 
 class Host {
   readonly worker: Worker;
@@ -60,7 +60,8 @@ class Host {
   constructor(cfg: HostConfig, log: (line: string) => void, onDeath: (h: Host, why: string) => void) {
     this.worker = new Worker(fileURLToPath(new URL(HOST_FILE, import.meta.url)), {
       workerData: { lossdialSessionHost: cfg },
-      execArgv: FROM_TS ? ['--import', 'tsx'] : [],
+      // The boot module registers the TypeScript loader itself; nothing inherited is needed.
+      execArgv: [],
     });
     this.ready = new Promise<void>((resolve, reject) => {
       this.markReady = resolve;
