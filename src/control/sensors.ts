@@ -125,7 +125,8 @@ export function powerMonitorStep(mon: PowerMonitor, truePowerW: number, dtS: num
   if (!(dtS >= 0) || !Number.isFinite(dtS)) failCheck('powerMonitor.step.dtS', 'must be finite and >= 0', dtS);
   const windowS = mon.cfg.conversionTimeS;
   const tolS = windowS * BOUNDARY_REL_TOL;
-  let remainingS = dtS;
+  // `+dtS`: a number already, but this way the loop variable stays an unboxed double in optimized code.
+  let remainingS = +dtS;
   while (remainingS > 0) {
     const leftS = windowS - mon.windowElapsedS;
     if (remainingS >= leftS - tolS) {
@@ -233,6 +234,9 @@ export interface TemperatureSensor {
   lagK: number;
   /** Latest reading, K. */
   reading: number;
+  /** Step length of the last update and its lag factor (steps mostly repeat: one exp saved per step). */
+  lastDtS: number;
+  lastAlpha: number;
 }
 
 export function validateTemperatureSensorConfig(cfg: TemperatureSensorConfig): void {
@@ -264,7 +268,7 @@ export function createTemperatureSensor(
     failCheck('temperatureSensor.rng', 'must be a RandomSource with normal()', rng);
   }
   requireFinite('temperatureSensor.initialK', initialK);
-  const s: TemperatureSensor = { cfg, rng, lagK: initialK, reading: Number.NaN };
+  const s: TemperatureSensor = { cfg, rng, lagK: initialK, reading: Number.NaN, lastDtS: Number.NaN, lastAlpha: Number.NaN };
   publishTemperature(s);
   return s;
 }
@@ -279,8 +283,13 @@ export function temperatureSensorStep(s: TemperatureSensor, trueK: number, dtS: 
   if (!Number.isFinite(trueK)) failCheck('temperatureSensor.step.trueK', 'must be finite', trueK);
   if (!(dtS >= 0) || !Number.isFinite(dtS)) failCheck('temperatureSensor.step.dtS', 'must be finite and >= 0', dtS);
   if (dtS === 0) return;
-  const tauS = s.cfg.tauS;
-  const alpha = tauS > 0 ? -Math.expm1(-dtS / tauS) : 1;
+  let alpha = s.lastAlpha;
+  if (dtS !== s.lastDtS) {
+    const tauS = s.cfg.tauS;
+    alpha = tauS > 0 ? -Math.expm1(-dtS / tauS) : 1;
+    s.lastDtS = dtS;
+    s.lastAlpha = alpha;
+  }
   s.lagK += alpha * (trueK - s.lagK);
   publishTemperature(s);
 }

@@ -67,12 +67,19 @@ function lerpClamped(a: number, b: number, x: number): number {
   return a + (b - a) * Math.min(Math.max(x, 0), 1);
 }
 
+// One knob of `knobsAtEffort` each, for the per-tick path (no object per call).
+function fswAtEffort(l: Ladder, s: number): number {
+  return l.enabled[0] ? lerpClamped(l.fswLo, l.fswHi, s) : l.fswLo;
+}
+function deadTimeAtEffort(l: Ladder, s: number): number {
+  return l.enabled[1] ? lerpClamped(l.deadLo, l.deadHi, s - 1) : l.deadLo;
+}
+function vDriveAtEffort(l: Ladder, s: number): number {
+  return l.enabled[2] ? lerpClamped(l.vgHi, l.vgLo, s - 2) : l.vgHi;
+}
+
 export function knobsAtEffort(l: Ladder, s: number): Knobs {
-  return {
-    fswHz: l.enabled[0] ? lerpClamped(l.fswLo, l.fswHi, s) : l.fswLo,
-    deadTimeS: l.enabled[1] ? lerpClamped(l.deadLo, l.deadHi, s - 1) : l.deadLo,
-    vDriveV: l.enabled[2] ? lerpClamped(l.vgHi, l.vgLo, s - 2) : l.vgHi,
-  };
+  return { fswHz: fswAtEffort(l, s), deadTimeS: deadTimeAtEffort(l, s), vDriveV: vDriveAtEffort(l, s) };
 }
 
 export interface SupervisorState {
@@ -127,10 +134,13 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
     effort: 0, trimW: 0, tjTrimW: 0, lossCapW: Infinity, measuredW: 0, targetW: 0, feedForwardW: 0, maxAchievableW: 0,
     binding: 'none', shortfallW: 0, limitedSinceS: NaN,
   };
-  let knobs: Knobs = { fswHz: sc.pwm.fswHz, deadTimeS: sc.pwm.deadTimeS, vDriveV: sc.gateDrive.vDriveV };
+  // Returned by every tick and refilled in place (the engine copies the values at once).
+  const knobs: { fswHz: number; deadTimeS: number; vDriveV: number } = { fswHz: sc.pwm.fswHz, deadTimeS: sc.pwm.deadTimeS, vDriveV: sc.gateDrive.vDriveV };
   // Actuator positions before quantization: they slew continuously; the hardware sees them quantized.
   const cont: { fswHz: number; deadTimeS: number; vDriveV: number } = { ...knobs };
-  let table: { s: Float64Array; lossW: Float64Array; tjSsC: Float64Array; ladder: Ladder } | undefined;
+  let table:
+    | { s: Float64Array; lossW: Float64Array; tjSsC: Float64Array; ladder: Ladder; sCapTj: number; capFromModelW: number; sorted: boolean }
+    | undefined;
   let tableKey: number[] = [];
   let worstLimited = { shortfallW: 0, binding: 'none' as Binding, tS: 0 };
 
@@ -208,7 +218,12 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
         tjSsC[i] = Math.max(temps[net.layout.junction[0]], temps[net.layout.junction[1]]);
       } else tjSsC[i] = Infinity;
     }
-    table = { s, lossW, tjSsC, ladder };
+    // Monotone by construction unless a loss came out NaN (then `invert` keeps its linear scan).
+    const sorted = !lossW.some(Number.isNaN);
+    table = { s, lossW, tjSsC, ladder, sCapTj: NaN, capFromModelW: NaN, sorted };
+    // The Tj cap depends on the table alone (the limit is fixed): once per table, not per tick.
+    table.sCapTj = effortCapTj(tjLimitC);
+    table.capFromModelW = invertEffort(table.sCapTj);
   };
 
   /** Largest effort whose steady junction temperature stays below the limit (interpolated). */
@@ -237,8 +252,18 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
     const n = t.s.length;
     if (lossW <= t.lossW[0]) return 0;
     if (lossW >= t.lossW[n - 1]) return t.s[n - 1];
+    // First row i ≥ 1 with lossW[i] ≥ lossW: by bisection on a monotone table.
     let i = 1;
-    while (t.lossW[i] < lossW) i++;
+    if (t.sorted) {
+      let hi = n - 1;
+      while (i < hi) {
+        const mid = (i + hi) >> 1;
+        if (t.lossW[mid] < lossW) i = mid + 1;
+        else hi = mid;
+      }
+    } else {
+      while (t.lossW[i] < lossW) i++;
+    }
     const a = t.lossW[i - 1], b = t.lossW[i];
     return b > a ? t.s[i - 1] + ((lossW - a) / (b - a)) * (t.s[i] - t.s[i - 1]) : t.s[i - 1];
   };
@@ -281,8 +306,8 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       // Tj lowers the target further if the prediction proves optimistic near the limit.
       const tjMax = Math.max(v.tjHsC, v.tjLsC);
       const tjErr = tjLimitC - tjMax;
-      const sCapTj = effortCapTj(tjLimitC);
-      const capFromModel = invertEffort(sCapTj);
+      const sCapTj = t.sCapTj;
+      const capFromModel = t.capFromModelW;
       if (tjErr < 2) st.tjTrimW = Math.min(0, st.tjTrimW + 2 * tjErr * dt);
       else st.tjTrimW = Math.min(0, st.tjTrimW + 0.5 * dt);
       // The cap binds only when it is below what the ladder can give anyway.
@@ -306,28 +331,30 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
         const atBottom = sTry <= 0 && err < 0;
         // Conditional integration: no trim while an actuator is still slewing toward its
         // feed-forward position (the error then is the slew, not model error).
-        const w0 = knobsAtEffort(t.ladder, invert(target + st.trimW));
+        const lossFf = target + st.trimW;
+        const s0 = invert(lossFf);
+        const l = t.ladder;
         const slewing =
-          Math.abs(w0.fswHz - cont.fswHz) > cfg.fsw.slewHzPerS * cfg.tickS ||
-          Math.abs(w0.deadTimeS - cont.deadTimeS) > cfg.deadTime.slewSPerS * cfg.tickS ||
-          Math.abs(w0.vDriveV - cont.vDriveV) > cfg.gateDrive.slewVPerS * cfg.tickS;
+          Math.abs(fswAtEffort(l, s0) - cont.fswHz) > cfg.fsw.slewHzPerS * cfg.tickS ||
+          Math.abs(deadTimeAtEffort(l, s0) - cont.deadTimeS) > cfg.deadTime.slewSPerS * cfg.tickS ||
+          Math.abs(vDriveAtEffort(l, s0) - cont.vDriveV) > cfg.gateDrive.slewVPerS * cfg.tickS;
         if (!atTop && !atBottom && !slewing) st.trimW += cfg.trimKiPerS * err * dt;
         st.trimW = Math.max(Math.min(st.trimW, 0.5 * maxW + 5), -0.5 * maxW - 5);
-        sCmd = invert(target + st.trimW);
+        const lossCmd = target + st.trimW;
+        // Same argument as s0 when the trim did not move (frozen while slewing or on a bound).
+        sCmd = lossCmd === lossFf ? s0 : invert(lossCmd);
       }
       st.feedForwardW = target;
       st.effort = sCmd;
-      const want = knobsAtEffort(t.ladder, sCmd);
+      const lad = t.ladder;
       // Slew limits, quantization, and a hysteresis of 0.4 step (or 0.2 % of the
       // range) so measurement noise does not dither the actuators.
-      cont.fswHz = moveActuator(cont.fswHz, want.fswHz, cfg.fsw.slewHzPerS * cfg.tickS, cfg.fsw.stepHz, cfg.fsw.maxHz - cfg.fsw.minHz);
-      cont.deadTimeS = moveActuator(cont.deadTimeS, want.deadTimeS, cfg.deadTime.slewSPerS * cfg.tickS, cfg.deadTime.stepS, cfg.deadTime.maxS - cfg.deadTime.minS);
-      cont.vDriveV = moveActuator(cont.vDriveV, want.vDriveV, cfg.gateDrive.slewVPerS * cfg.tickS, cfg.gateDrive.stepV, cfg.gateDrive.maxV - cfg.gateDrive.minV);
-      knobs = {
-        fswHz: quantize(cont.fswHz, cfg.fsw.stepHz),
-        deadTimeS: quantize(cont.deadTimeS, cfg.deadTime.stepS),
-        vDriveV: quantize(cont.vDriveV, cfg.gateDrive.stepV),
-      };
+      cont.fswHz = moveActuator(cont.fswHz, fswAtEffort(lad, sCmd), cfg.fsw.slewHzPerS * cfg.tickS, cfg.fsw.stepHz, cfg.fsw.maxHz - cfg.fsw.minHz);
+      cont.deadTimeS = moveActuator(cont.deadTimeS, deadTimeAtEffort(lad, sCmd), cfg.deadTime.slewSPerS * cfg.tickS, cfg.deadTime.stepS, cfg.deadTime.maxS - cfg.deadTime.minS);
+      cont.vDriveV = moveActuator(cont.vDriveV, vDriveAtEffort(lad, sCmd), cfg.gateDrive.slewVPerS * cfg.tickS, cfg.gateDrive.stepV, cfg.gateDrive.maxV - cfg.gateDrive.minV);
+      knobs.fswHz = quantize(cont.fswHz, cfg.fsw.stepHz);
+      knobs.deadTimeS = quantize(cont.deadTimeS, cfg.deadTime.stepS);
+      knobs.vDriveV = quantize(cont.vDriveV, cfg.gateDrive.stepV);
       // Shortfall: the demand exceeds what the allowed ranges (or the Tj cap) can give.
       const reachable = Math.min(maxW, st.lossCapW);
       const shortfall = demand - reachable;
@@ -357,7 +384,9 @@ export function createSupervisor(sys: SimSystem, stableBand?: (vDriveV: number) 
       };
     },
     resync(k: Knobs) {
-      knobs = { ...k };
+      knobs.fswHz = k.fswHz;
+      knobs.deadTimeS = k.deadTimeS;
+      knobs.vDriveV = k.vDriveV;
       cont.fswHz = k.fswHz;
       cont.deadTimeS = k.deadTimeS;
       cont.vDriveV = k.vDriveV;

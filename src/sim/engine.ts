@@ -27,7 +27,7 @@ import {
 import { DelayLine, type PiConfig, createPiState, piCoefficients, piReset, piStep } from '../control/pi.ts';
 import { ENERGY, OdexStepper, ZohStepper, addEnergies } from './electricalStep.ts';
 import { type SimSystem, samplePeriodS } from './system.ts';
-import { LiveProfile, type Profile, rampActive } from './profiles.ts';
+import { LiveProfile, type Profile, ProfileReader, rampActive } from './profiles.ts';
 import { type RunExtremes, RunWatch } from './watch.ts';
 
 export type SimStatus = 'ok' | 'diverged' | 'interrupted' | 'limited';
@@ -38,7 +38,10 @@ export interface Knobs {
   vDriveV: number;
 }
 
-/** What a supervisor sees at its tick (true plant quantities; sensor models live with the supervisor). */
+/**
+ * What a supervisor sees at its tick (true plant quantities; sensor models live with the supervisor).
+ * The engine refills one view object at every tick: read it during `tick`, do not keep it.
+ */
 export interface EngineView {
   readonly tS: number;
   readonly dtS: number;
@@ -65,6 +68,7 @@ export interface EngineView {
 
 export interface SupervisorTask {
   readonly tickS: number;
+  /** The knobs to apply from now on; the engine copies them at once (the object may be reused). */
   tick(view: EngineView): Knobs;
   /** Extra numeric fields for each record (measured loss, binding constraint code, …). */
   recordFields?(): Record<string, number | string>;
@@ -189,6 +193,35 @@ const E_PASSIVE = ENERGY.passive;
 const E_GATE = ENERGY.gateDriver;
 const E_STORE = ENERGY.store;
 const E_N = ENERGY.n;
+
+/** The supervisor's view, refilled in place at every tick (no allocation per tick). Fields start as doubles. */
+class TickView implements EngineView {
+  tS = NaN;
+  dtS = NaN;
+  demandW = NaN;
+  readonly knobs: Knobs = { fswHz: NaN, deadTimeS: NaN, vDriveV: NaN };
+  tjHsC = NaN;
+  tjLsC = NaN;
+  heatsinkC = NaN;
+  coolantC = NaN;
+  inletC = NaN;
+  flowKgPerS = NaN;
+  heatToCoolantW = NaN;
+  pinW = NaN;
+  poutW = NaN;
+  semiW = NaN;
+  totalLossW = NaN;
+  capOutRmsA = NaN;
+  capInRmsA = NaN;
+  vSourceV = NaN;
+  loadROhm = NaN;
+  loadIA = NaN;
+}
+
+/** Zero a short accumulator (a plain loop beats the TypedArray.fill builtin call at this size). */
+function clear(a: Float64Array): void {
+  for (let k = 0; k < a.length; k++) a[k] = 0;
+}
 
 /** Equal, or both NaN (an unused load field). */
 function same(a: number, b: number): boolean {
@@ -328,6 +361,29 @@ export class Simulation {
   private useOdex: boolean;
   private supWasOn: boolean;
   private readonly breakProfiles: Profile[];
+  // Per-iteration profile reads, cached between breakpoints (see ProfileReader); dropped at live steps.
+  private readonly rSupOn: ProfileReader;
+  private readonly rVin: ProfileReader;
+  private readonly rLoadR: ProfileReader;
+  private readonly rLoadI: ProfileReader;
+  private readonly rFsw: ProfileReader;
+  private readonly rDead: ProfileReader;
+  private readonly rVDrive: ProfileReader;
+  private readonly rRef: ProfileReader;
+  private readonly rDemand: ProfileReader;
+  private readonly rInlet: ProfileReader;
+  private readonly rFlow: ProfileReader;
+  private readonly readers: ProfileReader[];
+  /** The PI gains follow a profile that can change (re-evaluated at live steps). */
+  private gainsMove: boolean;
+  /** The switching frequency `ts` was computed for (samplePeriodS depends on nothing else). */
+  private tsFsw: number;
+  // Constants of the system read every iteration.
+  private readonly isBuck: boolean;
+  private readonly loadIsCurrent: boolean;
+  private readonly esrOut: number;
+  private readonly runawayTjC: number;
+  private readonly view = new TickView();
   private cachedBreak = -1;
   private cachedBreakAt = NaN;
   private finished = false;
@@ -354,6 +410,24 @@ export class Simulation {
     };
     const prof = this.profiles;
     this.breakProfiles = Object.values(prof);
+    const rd = (q: Profile): ProfileReader => new ProfileReader(q);
+    this.rSupOn = rd(prof.supervisorOn);
+    this.rVin = rd(prof.vinV);
+    this.rLoadR = rd(prof.loadROhm);
+    this.rLoadI = rd(prof.loadIA);
+    this.rFsw = rd(prof.fswHz);
+    this.rDead = rd(prof.deadTimeS);
+    this.rVDrive = rd(prof.vDriveV);
+    this.rRef = rd(prof.reference);
+    this.rDemand = rd(prof.heatDemandW);
+    this.rInlet = rd(prof.inletC);
+    this.rFlow = rd(prof.flowKgPerS);
+    this.readers = [this.rSupOn, this.rVin, this.rLoadR, this.rLoadI, this.rFsw, this.rDead, this.rVDrive, this.rRef, this.rDemand, this.rInlet, this.rFlow];
+    this.gainsMove = !prof.controlKp.constant || !prof.controlKi.constant;
+    this.isBuck = plant.conv.kind === 'buck';
+    this.loadIsCurrent = sys.loadIsCurrent;
+    this.esrOut = plant.conv.kind === 'buck' ? plant.conv.cout.esrOhm : NaN;
+    this.runawayTjC = sc.limits.runawayTjC;
     this.movingPlant = [prof.loadROhm, prof.loadIA, prof.vinV, prof.reference, prof.fswHz, prof.deadTimeS, prof.vDriveV, prof.controlKp, prof.controlKi];
     this.knobs = { fswHz: prof.fswHz.valueAt(0), deadTimeS: prof.deadTimeS.valueAt(0), vDriveV: prof.vDriveV.valueAt(0) };
     this.u = defaultAvgInputs(plant);
@@ -371,6 +445,7 @@ export class Simulation {
     this.initialX = [this.x[0], this.x[1]];
     this.piCfg = { ...sys.pi, kp: prof.controlKp.valueAt(0), ki: prof.controlKi.valueAt(0) };
     this.ts = samplePeriodS(sys, this.knobs.fswHz);
+    this.tsFsw = this.knobs.fswHz;
     this.coeffs = piCoefficients(this.piCfg, this.ts);
     piReset(this.pi, ep0.duty);
     this.delay = new DelayLine(sys.delaySamples, ep0.duty);
@@ -397,10 +472,12 @@ export class Simulation {
     // iteration reads the new value; a hold ends there only if the plant moved), so a session
     // saved as step profiles replays line for line.
     this.cachedBreakAt = NaN;
+    for (const r of this.readers) r.invalidate();
+    this.gainsMove = !this.profiles.controlKp.constant || !this.profiles.controlKi.constant;
   }
 
   private supOn(t: number): boolean {
-    return this.sup !== undefined && this.profiles.supervisorOn.valueAt(t) >= 0.5;
+    return this.sup !== undefined && this.rSupOn.at(t) >= 0.5;
   }
 
   private refreshOuts(): void {
@@ -409,12 +486,11 @@ export class Simulation {
   }
 
   private readInputs(tt: number): void {
-    const prof = this.profiles;
     const u = this.u;
-    u.vSourceV = prof.vinV.valueAt(tt);
-    if (this.sys.plant.conv.kind === 'buck') {
-      if (this.sys.loadIsCurrent) u.loadIA = prof.loadIA.valueAt(tt);
-      else u.loadROhm = prof.loadROhm.valueAt(tt);
+    u.vSourceV = this.rVin.at(tt);
+    if (this.isBuck) {
+      if (this.loadIsCurrent) u.loadIA = this.rLoadI.at(tt);
+      else u.loadROhm = this.rLoadR.at(tt);
     }
     u.fswHz = this.knobs.fswHz;
     u.deadTimeS = this.knobs.deadTimeS;
@@ -440,12 +516,11 @@ export class Simulation {
     let dt = dtIn;
     if (dt <= 0) return;
     const net = this.sys.net;
-    const prof = this.profiles;
     this.thermalSteps++;
     // Inputs held over the step take their mid-interval values: a step breakpoint landing at the
     // end of this interval belongs to the next one.
     const tMid = this.t - 0.5 * dt;
-    const flow = prof.flowKgPerS.valueAt(tMid);
+    const flow = this.rFlow.at(tMid);
     // Floating-point drift in the accumulated step would defeat the cache: snap to the nominal step.
     if (Math.abs(dt - this.thDt) < 1e-9 * this.thDt) dt = this.thDt;
     let disc = this.thLast;
@@ -459,7 +534,7 @@ export class Simulation {
       }
       this.thLast = disc;
     }
-    const inlet = prof.inletC.valueAt(tMid);
+    const inlet = this.rInlet.at(tMid);
     const tc0 = this.temps[net.layout.coolant];
     const thU = this.thU;
     const acc = this.accTh;
@@ -472,14 +547,14 @@ export class Simulation {
     this.temps.set(this.thOut);
     // Coolant heat over the step by the trapezoid rule on the coolant node.
     this.coolantJ += flow * net.coolantCpJPerKgK * (0.5 * (tc0 + this.temps[net.layout.coolant]) - inlet) * dt;
-    acc.fill(0);
+    clear(acc);
     this.u.tjHsC = this.temps[this.jH];
     this.u.tjLsC = this.temps[this.jL];
     this.watch.thermal(this.u.tjHsC, this.u.tjLsC, dt, this.t);
   }
 
   private heatNow(): number {
-    return heatToCoolantW(this.sys.net, this.temps, this.profiles.inletC.valueAt(this.t), this.profiles.flowKgPerS.valueAt(this.t));
+    return heatToCoolantW(this.sys.net, this.temps, this.rInlet.at(this.t), this.rFlow.at(this.t));
   }
 
   private emitRecord(): void {
@@ -526,7 +601,7 @@ export class Simulation {
     if (this.sup?.recordFields) Object.assign(r, this.sup.recordFields());
     if (this.keep) this.records.push(r);
     this.opts.onRecord?.(r);
-    a.fill(0);
+    clear(a);
     this.recY = this.recDuty = this.recTime = this.recCapOutMs = this.recCapInMs = this.recYDev = 0;
   }
 
@@ -553,9 +628,10 @@ export class Simulation {
   private advance(dt: number): boolean {
     const x = this.x;
     const u = this.u;
-    const y0 = measured(this.sys, x, u);
-    this.accStep.fill(0);
+    const y0 = this.measuredNow();
     if (this.useOdex) {
+      // odex adds into accStep; the ZOH path below overwrites every entry.
+      clear(this.accStep);
       this.odexIntervals++;
       if (this.odex.advance(x, u, dt, this.accStep) === 'failed') return false;
       this.refreshOuts();
@@ -581,13 +657,13 @@ export class Simulation {
       zoh.powersAt(0.5 * (xa + x[0]), 0.5 * (xb + x[1]), u.duty, p);
       for (let k = 0; k < E_N; k++) this.accStep[k] = p[k] * dt;
       if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
-      this.accumulate(dt, 0.5 * (y0 + measured(this.sys, x, u)), Math.max(p[HP_CAP_OUT], 0), Math.max(p[HP_CAP_IN], 0));
+      this.accumulate(dt, 0.5 * (y0 + this.measuredNow()), Math.max(p[HP_CAP_OUT], 0), Math.max(p[HP_CAP_IN], 0));
       return true;
     }
     if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
     // Trapezoid on the regulated quantity: the records follow the state, not the last leg evaluation.
     const o = this.curOuts;
-    this.accumulate(dt, 0.5 * (y0 + measured(this.sys, x, u)), o.capOutRmsA * o.capOutRmsA, o.capInRmsA * o.capInRmsA);
+    this.accumulate(dt, 0.5 * (y0 + this.measuredNow()), o.capOutRmsA * o.capOutRmsA, o.capInRmsA * o.capInRmsA);
     return true;
   }
 
@@ -615,8 +691,8 @@ export class Simulation {
     }
     this.heldTjH = u.tjHsC;
     this.heldTjL = u.tjLsC;
-    this.heldY = measured(this.sys, x, u);
-    this.heldRef = this.profiles.reference.valueAt(this.t);
+    this.heldY = this.measuredNow();
+    this.heldRef = this.rRef.at(this.t);
     this.heldPinned = this.pi.saturation !== 0;
     const h = this.heldU;
     h[0] = u.vSourceV; h[1] = u.loadROhm; h[2] = u.loadIA; h[3] = u.fswHz; h[4] = u.deadTimeS; h[5] = u.vDriveV; h[6] = u.backEmfV;
@@ -628,7 +704,7 @@ export class Simulation {
     const h = this.heldU;
     if (Math.abs(u.tjHsC - this.heldTjH) > HOLD_BAND_K || Math.abs(u.tjLsC - this.heldTjL) > HOLD_BAND_K) return false;
     return same(u.vSourceV, h[0]) && same(u.loadROhm, h[1]) && same(u.loadIA, h[2]) && u.fswHz === h[3] &&
-      u.deadTimeS === h[4] && u.vDriveV === h[5] && u.backEmfV === h[6] && this.profiles.reference.valueAt(this.t) === this.heldRef;
+      u.deadTimeS === h[4] && u.vDriveV === h[5] && u.backEmfV === h[6] && this.rRef.at(this.t) === this.heldRef;
   }
 
   /** A held interval: state and duty unchanged, powers linear in the junction temperatures. */
@@ -662,7 +738,7 @@ export class Simulation {
     const vMax = 3 * Math.max(u.vSourceV, 1);
     if (Math.abs(x[1]) > vMax) { this.cause = `voltage ${x[1].toFixed(1)} V beyond ${vMax.toFixed(0)} V`; this.causeCode = 'voltage'; return true; }
     const tjMax = Math.max(u.tjHsC, u.tjLsC);
-    const lim = this.sys.scenario.limits.runawayTjC;
+    const lim = this.runawayTjC;
     if (!(tjMax <= lim)) {
       this.cause = `thermal runaway: junction ${tjMax.toFixed(1)} °C above ${lim} °C at ${this.t.toFixed(3)} s`;
       this.causeCode = 'thermalRunaway';
@@ -671,37 +747,97 @@ export class Simulation {
     return false;
   }
 
+  /** `measured(sys, x, u)` for the present state, with the system constants in fields (hot path). */
+  private measuredNow(): number {
+    const x = this.x;
+    if (!this.isBuck) return x[0];
+    const u = this.u;
+    const esr = this.esrOut;
+    if (Number.isNaN(u.loadROhm)) return x[1] + esr * (x[0] - u.loadIA);
+    return (x[1] + esr * x[0]) / (1 + esr / u.loadROhm);
+  }
+
   private supervisorTick(): void {
     const sup = this.sup!;
-    const prof = this.profiles;
     const net = this.sys.net;
     const t = this.t;
     const a = this.accSup;
     const st = this.supTime;
     const dt = st > 0 ? st : 1;
     const o = this.curOuts;
-    const view: EngineView = {
-      tS: t, dtS: st, demandW: prof.heatDemandW.valueAt(t), knobs: { ...this.knobs },
-      tjHsC: this.temps[this.jH], tjLsC: this.temps[this.jL],
-      heatsinkC: this.temps[net.layout.heatsink], coolantC: this.temps[net.layout.coolant], inletC: prof.inletC.valueAt(t),
-      flowKgPerS: prof.flowKgPerS.valueAt(t), heatToCoolantW: this.heatNow(),
-      pinW: st > 0 ? a[E_PIN] / dt : o.pinW,
-      poutW: st > 0 ? a[E_POUT] / dt : o.poutW,
-      semiW: st > 0 ? (a[E_HS] + a[E_LS]) / dt : o.semiW,
-      totalLossW: st > 0 ? (a[E_HS] + a[E_LS] + a[E_PASSIVE] + a[E_GATE]) / dt : o.totalLossW,
-      capOutRmsA: st > 0 ? Math.sqrt(this.capOutMs / dt) : o.capOutRmsA,
-      capInRmsA: st > 0 ? Math.sqrt(this.capInMs / dt) : o.capInRmsA,
-      vSourceV: this.u.vSourceV, loadROhm: this.u.loadROhm, loadIA: this.u.loadIA,
-    };
+    const view = this.view;
+    view.tS = t;
+    view.dtS = st;
+    view.demandW = this.rDemand.at(t);
+    view.knobs.fswHz = this.knobs.fswHz;
+    view.knobs.deadTimeS = this.knobs.deadTimeS;
+    view.knobs.vDriveV = this.knobs.vDriveV;
+    view.tjHsC = this.temps[this.jH];
+    view.tjLsC = this.temps[this.jL];
+    view.heatsinkC = this.temps[net.layout.heatsink];
+    view.coolantC = this.temps[net.layout.coolant];
+    view.inletC = this.rInlet.at(t);
+    view.flowKgPerS = this.rFlow.at(t);
+    // heatNow() with the inputs just read (the inlet ramp is not cached between breakpoints).
+    view.heatToCoolantW = heatToCoolantW(net, this.temps, view.inletC, view.flowKgPerS);
+    view.pinW = st > 0 ? a[E_PIN] / dt : o.pinW;
+    view.poutW = st > 0 ? a[E_POUT] / dt : o.poutW;
+    view.semiW = st > 0 ? (a[E_HS] + a[E_LS]) / dt : o.semiW;
+    view.totalLossW = st > 0 ? (a[E_HS] + a[E_LS] + a[E_PASSIVE] + a[E_GATE]) / dt : o.totalLossW;
+    view.capOutRmsA = st > 0 ? Math.sqrt(this.capOutMs / dt) : o.capOutRmsA;
+    view.capInRmsA = st > 0 ? Math.sqrt(this.capInMs / dt) : o.capInRmsA;
+    view.vSourceV = this.u.vSourceV;
+    view.loadROhm = this.u.loadROhm;
+    view.loadIA = this.u.loadIA;
     const k = sup.tick(view);
     this.knobs.fswHz = k.fswHz;
     this.knobs.deadTimeS = k.deadTimeS;
     this.knobs.vDriveV = k.vDriveV;
     this.readInputs(t);
-    a.fill(0);
+    clear(a);
     this.supTime = 0;
     this.capOutMs = this.capInMs = 0;
     this.tNextSup = t + sup.tickS;
+  }
+
+  /** A control sample at t: measure, step the PI controller, feed the delay line and the settling test. */
+  private controlSample(t: number): void {
+    const x = this.x;
+    const u = this.u;
+    this.samples++;
+    let y = this.measuredNow();
+    const fHz = this.sys.sensorFilterHz;
+    if (fHz !== undefined) {
+      const a = 1 - Math.exp(-2 * Math.PI * fHz * this.ts);
+      this.filtY = Number.isNaN(this.filtY) ? y : this.filtY + a * (y - this.filtY);
+      y = this.filtY;
+    }
+    const ref = this.rRef.at(t);
+    const e = ref - y;
+    const cmd = piStep(this.piCfg, this.coeffs, this.pi, e);
+    u.duty = this.delay.push(cmd);
+    this.tNextSample = t + this.ts;
+    const dev = Math.abs(e);
+    this.watch.sample(e, this.pi.saturation !== 0, this.ts, t);
+    if (dev > this.recYDev) this.recYDev = dev;
+    if (!Number.isNaN(this.moveAtS)) {
+      if (dev > this.maxDevDuringMoves) this.maxDevDuringMoves = dev;
+      if (dev > REGULATION_BAND * Math.abs(ref)) this.moveLastOutS = t;
+    }
+    // Settled: no motion, and either no error or a controller that no longer moves at all —
+    // output and stored state (duty pinned with the integrator clamped, or an open loop) — for
+    // several samples in a row. A winding integrator behind a pinned output is not settled.
+    const piX = this.pi.x;
+    const frozen = cmd === this.lastCmd && Math.abs(piX - this.lastPiX) <= 1e-12 * (1 + Math.abs(piX));
+    const still = Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y)) && (dev < 1e-6 * (1 + Math.abs(ref)) || frozen);
+    this.settled = still ? this.settled + 1 : 0;
+    this.lastE = e;
+    this.lastCmd = cmd;
+    this.lastPiX = piX;
+    if (this.mode === 'auto' && this.useOdex && this.samples % 64 === 0) {
+      this.zoh.linearize(x, u);
+      this.useOdex = this.zoh.nonlinear;
+    }
   }
 
   /** One engine iteration: due discrete updates at t, then integrate to the next event. */
@@ -715,9 +851,9 @@ export class Simulation {
     const supOn = this.supOn(t);
     const k0 = this.knobs.fswHz, k1 = this.knobs.deadTimeS, k2 = this.knobs.vDriveV;
     if (!supOn) {
-      this.knobs.fswHz = prof.fswHz.valueAt(t);
-      this.knobs.deadTimeS = prof.deadTimeS.valueAt(t);
-      this.knobs.vDriveV = prof.vDriveV.valueAt(t);
+      this.knobs.fswHz = this.rFsw.at(t);
+      this.knobs.deadTimeS = this.rDead.at(t);
+      this.knobs.vDriveV = this.rVDrive.at(t);
     } else if (!this.supWasOn) {
       this.sup!.resync?.(this.knobs);
       this.tNextSup = t;
@@ -735,7 +871,7 @@ export class Simulation {
       while (this.tNextRec <= t + 1e-12) this.tNextRec = ++this.kRec * this.recDt;
     }
     if (supOn && t >= this.tNextSup - 1e-12) this.supervisorTick();
-    if (!prof.controlKp.constant || !prof.controlKi.constant) {
+    if (this.gainsMove) {
       const kp = prof.controlKp.valueAt(t);
       const ki = prof.controlKi.valueAt(t);
       if (kp !== this.piCfg.kp || ki !== this.piCfg.ki) {
@@ -756,49 +892,17 @@ export class Simulation {
       this.tNextSample = t;
       this.refreshOuts();
     }
-    const newTs = samplePeriodS(this.sys, this.knobs.fswHz);
+    // The sample period depends on fsw alone: recompute it only when fsw moved.
+    const fsw = this.knobs.fswHz;
+    const newTs = fsw === this.tsFsw ? this.ts : samplePeriodS(this.sys, fsw);
+    this.tsFsw = fsw;
     if (newTs !== this.ts) {
       this.ts = newTs;
       // Continuous-basis gains are rescaled with the sample period; per-sample gains are not.
       this.coeffs = piCoefficients(this.piCfg, newTs);
       if (this.tNextSample > t + newTs) this.tNextSample = t + newTs;
     }
-    if (!this.held && t >= this.tNextSample - 1e-12) {
-      this.samples++;
-      let y = measured(this.sys, x, u);
-      const fHz = this.sys.sensorFilterHz;
-      if (fHz !== undefined) {
-        const a = 1 - Math.exp(-2 * Math.PI * fHz * this.ts);
-        this.filtY = Number.isNaN(this.filtY) ? y : this.filtY + a * (y - this.filtY);
-        y = this.filtY;
-      }
-      const ref = prof.reference.valueAt(t);
-      const e = ref - y;
-      const cmd = piStep(this.piCfg, this.coeffs, this.pi, e);
-      u.duty = this.delay.push(cmd);
-      this.tNextSample = t + this.ts;
-      const dev = Math.abs(e);
-      this.watch.sample(e, this.pi.saturation !== 0, this.ts, t);
-      if (dev > this.recYDev) this.recYDev = dev;
-      if (!Number.isNaN(this.moveAtS)) {
-        if (dev > this.maxDevDuringMoves) this.maxDevDuringMoves = dev;
-        if (dev > REGULATION_BAND * Math.abs(ref)) this.moveLastOutS = t;
-      }
-      // Settled: no motion, and either no error or a controller that no longer moves at all —
-      // output and stored state (duty pinned with the integrator clamped, or an open loop) — for
-      // several samples in a row. A winding integrator behind a pinned output is not settled.
-      const piX = this.pi.x;
-      const frozen = cmd === this.lastCmd && Math.abs(piX - this.lastPiX) <= 1e-12 * (1 + Math.abs(piX));
-      const still = Math.abs(e - this.lastE) < 1e-7 * (1 + Math.abs(y)) && (dev < 1e-6 * (1 + Math.abs(ref)) || frozen);
-      this.settled = still ? this.settled + 1 : 0;
-      this.lastE = e;
-      this.lastCmd = cmd;
-      this.lastPiX = piX;
-      if (this.mode === 'auto' && this.useOdex && this.samples % 64 === 0) {
-        this.zoh.linearize(x, u);
-        this.useOdex = this.zoh.nonlinear;
-      }
-    }
+    if (!this.held && t >= this.tNextSample - 1e-12) this.controlSample(t);
     // 2. next event
     const tEvent = Math.min(this.tNextTh, this.tNextRec, supOn ? this.tNextSup : Infinity, this.nextBreak(t), this.tEndS);
     if (!this.held && this.settled >= SETTLE_SAMPLES && !this.useOdex && !this.anyRamp(t)) this.enterHold();

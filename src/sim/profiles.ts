@@ -13,10 +13,12 @@ export interface Profile {
   /** First breakpoint strictly after tS (Infinity when none). */
   nextBreakS(tS: number): number;
   readonly constant: boolean;
+  /** Piecewise constant: the value only changes at breakpoints (a constant or a step list). */
+  readonly stepwise?: boolean;
 }
 
 export function constantProfile(v: number): Profile {
-  return { valueAt: () => v, nextBreakS: () => Infinity, constant: true };
+  return { valueAt: () => v, nextBreakS: () => Infinity, constant: true, stepwise: true };
 }
 
 /** Index of the last breakpoint at or before t (−1 before the first). */
@@ -41,6 +43,7 @@ export function makeProfile(spec: ProfileSpec | undefined, fallback: number): Pr
   const vs = pts.map((p) => p[1]);
   return {
     constant: false,
+    stepwise: !ramp,
     valueAt(t: number): number {
       const i = lastAtOrBefore(ts, t);
       if (i < 0) return ramp ? vs[0] : fallback;
@@ -71,6 +74,11 @@ export class LiveProfile implements Profile {
     return this.base.constant && this.ts.length === 0;
   }
 
+  /** Live steps are held values, so this is piecewise constant exactly when the base is. */
+  get stepwise(): boolean {
+    return this.base.stepwise === true;
+  }
+
   /** Hold `value` from `tS` on (replacing any later live steps). */
   setFrom(tS: number, value: number): void {
     while (this.ts.length > 0 && this.ts[this.ts.length - 1] >= tS) {
@@ -95,5 +103,37 @@ export class LiveProfile implements Profile {
   /** The live steps, as `[tS, value]` pairs. */
   steps(): Array<[number, number]> {
     return this.ts.map((t, i) => [t, this.vs[i]]);
+  }
+}
+
+/**
+ * Cached reads of one profile for a caller whose time mostly moves forward in small steps (the
+ * engine reads several inputs at every iteration). A piecewise-constant profile's value is
+ * reused while t stays in [t of the last search, next breakpoint); anything else is read
+ * afresh. `at(t)` always equals `profile.valueAt(t)`. Call `invalidate()` after the profile
+ * changes (a live step).
+ */
+export class ProfileReader {
+  private lo = Infinity;
+  private hi = -Infinity;
+  private v = NaN;
+  constructor(readonly profile: Profile) {}
+
+  at(t: number): number {
+    if (t >= this.lo && t < this.hi) return this.v;
+    const p = this.profile;
+    const v = p.valueAt(t);
+    if (p.stepwise) {
+      // A constant holds at every time; a step list from here up to its next breakpoint.
+      this.lo = p.constant ? -Infinity : t;
+      this.hi = p.nextBreakS(t);
+      this.v = v;
+    }
+    return v;
+  }
+
+  invalidate(): void {
+    this.lo = Infinity;
+    this.hi = -Infinity;
   }
 }

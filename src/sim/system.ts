@@ -41,7 +41,7 @@ export interface SimSystem {
 }
 
 function sineProfile(offsetA: number, amplitudeA: number, freqHz: number): Profile {
-  return { constant: false, valueAt: (t) => offsetA + amplitudeA * Math.sin(2 * Math.PI * freqHz * t), nextBreakS: () => Infinity };
+  return { constant: false, stepwise: false, valueAt: (t) => offsetA + amplitudeA * Math.sin(2 * Math.PI * freqHz * t), nextBreakS: () => Infinity };
 }
 
 export function buildSystem(scenario: Scenario): SimSystem {
