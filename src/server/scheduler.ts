@@ -20,6 +20,8 @@ export interface SchedulerOptions {
    */
   shrinkAbove?: number;
   growBelow?: number;
+  /** The budget never shrinks below this (ms; default 2). */
+  minBudgetMs?: number;
 }
 
 export class TickScheduler {
@@ -87,6 +89,17 @@ export class TickScheduler {
         running[i].computeTick(slice);
       }
       this.next = firstSkipped >= 0 ? firstSkipped : start + 1;
+      // Time the others left unused goes to sessions still behind their pace (a heavy stretch of
+      // one session, light ones elsewhere), so the thread is not idle while a session lags.
+      for (let pass = 0; pass < 4; pass++) {
+        const behind = running.filter((s) => s.behind);
+        if (behind.length === 0 || this.budgetMs - (now() - t0) < 1) break;
+        for (let k = 0; k < behind.length; k++) {
+          const left = this.budgetMs - (now() - t0);
+          if (left < 0.3) break;
+          behind[k].computeTick(left / (behind.length - k), true);
+        }
+      }
     }
     // Paused sessions only have analysis work (a margin map) to do.
     for (const s of list) if (!s.running) s.computeTick(1);
@@ -95,7 +108,7 @@ export class TickScheduler {
     // work on this thread) fills the period, grow it back when there is room.
     const period = this.periodMs;
     this.loadMs = 0.7 * this.loadMs + 0.3 * (now() - t0 + lateMs);
-    if (this.loadMs > (this.opts.shrinkAbove ?? 0.9) * period) this.budgetMs = Math.max(2, this.budgetMs * 0.85);
+    if (this.loadMs > (this.opts.shrinkAbove ?? 0.9) * period) this.budgetMs = Math.max(this.opts.minBudgetMs ?? 2, this.budgetMs * 0.85);
     else if (this.loadMs < (this.opts.growBelow ?? 0.75) * period) this.budgetMs = Math.min(this.opts.maxBudgetMs, this.budgetMs * 1.1);
     this.dueMs = Math.max(this.dueMs + period, now());
     if (this.sessions.length > 0) this.arm();

@@ -97,6 +97,8 @@ export class Session {
   private lastTickMs = 0;
   private simTargetS = 0;
   private achievedSpeed = 0;
+  /** Simulated time at the start of the last round's first slice (s). */
+  private roundStartS = 0;
   private chunkS = 1e-3;
   private seq = 0;
   private merged = 0;
@@ -164,6 +166,7 @@ export class Session {
     this.lastRecord = undefined;
     this.simTargetS = 0;
     this.achievedSpeed = 0;
+    this.roundStartS = 0;
     this.chunkS = Math.min(1e-3, scenario.sim.recordIntervalS);
     this.margin = null;
     this.marginKey = '';
@@ -299,6 +302,7 @@ export class Session {
         if (this.state !== 'running') {
           this.lastTickMs = this.opts.now();
           this.simTargetS = sim.t;
+          this.roundStartS = sim.t;
           this.setState('running');
         }
         return undefined;
@@ -488,9 +492,10 @@ export class Session {
 
   // ------------------------------------------------------------------ pacing
 
-  private advance(budgetMs: number, nowMs: number): void {
+  private advance(budgetMs: number, nowMs: number, more: boolean): void {
     const sim = this.run.sim;
-    const wallDtS = Math.min(Math.max(nowMs - this.lastTickMs, 0), 250) / 1000;
+    // A further slice in the same round continues toward the target already set; it adds no wall time.
+    const wallDtS = more ? 0 : Math.min(Math.max(nowMs - this.lastTickMs, 0), 250) / 1000;
     const t0 = sim.t;
     const target = this.speed === 'max' ? Infinity : Math.max(this.simTargetS, t0) + this.speed * wallDtS;
     const start = this.opts.now();
@@ -510,9 +515,15 @@ export class Session {
       const ms = this.opts.now() - c0;
       if (sim.t - s0 >= 0.5 * chunk) this.chunkS = Math.min(MAX_CHUNK_S, Math.max(MIN_CHUNK_S, this.chunkS * Math.min(Math.max(aimMs / Math.max(ms, 0.02), 0.25), 2)));
     }
-    // Falling behind: drop the debt instead of racing to catch up later.
-    this.simTargetS = budgetHit || this.speed === 'max' ? sim.t : target;
-    this.noteProgress(sim.t - t0, wallDtS);
+    // Falling behind: keep at most one frame period of debt (a later slice of this round, or the
+    // next round, may still make it up), never more, so a session does not race to catch up later.
+    const maxDebtS = this.speed === 'max' ? 0 : this.speed / this.opts.frameHz;
+    this.simTargetS = this.speed === 'max' ? sim.t : budgetHit ? Math.min(target, sim.t + maxDebtS) : target;
+    if (!more) {
+      // Pace over the wall time since the last round began, whatever slices that round took.
+      this.noteProgress(t0 - this.roundStartS, wallDtS);
+      this.roundStartS = t0;
+    }
     if (sim.status !== 'ok') {
       this.setState('failed');
       this.status(`simulation ${sim.status}: ${sim.cause ?? 'no cause given'}`);
@@ -532,24 +543,34 @@ export class Session {
     this.frameTick();
   }
 
-  /** Advance the simulation by up to budgetMs of compute (0: this round has no time for it; it falls behind). */
-  computeTick(budgetMs: number): void {
+  /**
+   * Advance the simulation by up to budgetMs of compute (0: this round has no time for it; it falls
+   * behind). `more`: a further slice in the same round for a session still `behind`, from time the
+   * other sessions left unused.
+   */
+  computeTick(budgetMs: number, more = false): void {
     if (this.disposed) return;
     try {
       const now = this.opts.now();
       if (this.state === 'running') {
-        if (budgetMs > 0) this.advance(budgetMs, now);
-        else {
-          this.simTargetS = this.run.sim.t;
+        if (budgetMs > 0) this.advance(budgetMs, now, more);
+        else if (!more) {
+          this.simTargetS = this.roundStartS = this.run.sim.t;
           this.noteProgress(0, Math.min(Math.max(now - this.lastTickMs, 0), 250) / 1000);
         }
       }
-      this.lastTickMs = now;
+      if (!more) this.lastTickMs = now;
+      if (more) return;
       if (this.mapJob && budgetMs > 0) this.stepMapJob();
       if (this.state === 'running' && budgetMs > 0) this.updateMarginAlongRun(now);
     } catch (e) {
       this.fail(e);
     }
+  }
+
+  /** Running and short of its pace target after its last slice (more compute would be used). */
+  get behind(): boolean {
+    return this.state === 'running' && !this.disposed && !this.run.sim.done && this.run.sim.t < this.simTargetS - 1e-9;
   }
 
   frameTick(): void {

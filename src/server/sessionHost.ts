@@ -53,7 +53,7 @@ interface Hosted {
 /** The host's side of the protocol, on any message port (a worker's parentPort, or a test's channel). */
 export function runSessionHost(port: { postMessage(m: FromHost): void; on(ev: 'message', f: (m: ToHost) => void): void }, cfg: HostConfig): void {
   const cases = caseLibrary(cfg.casesDir);
-  const scheduler = new TickScheduler({ frameHz: cfg.frameHz, maxBudgetMs: cfg.tickBudgetMs, now: () => performance.now(), shrinkAbove: 1.2, growBelow: 1 });
+  const scheduler = new TickScheduler({ frameHz: cfg.frameHz, maxBudgetMs: cfg.tickBudgetMs, now: () => performance.now(), shrinkAbove: 1.2, growBelow: 1, minBudgetMs: 0.75 * cfg.tickBudgetMs });
   const hosted = new Map<string, Hosted>();
   let running = 0;
   const post = (m: FromHost): void => port.postMessage(m);

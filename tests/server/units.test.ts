@@ -1,8 +1,9 @@
-/** Small pieces of the server: command parsing, the frame buffer, the replay merge, the token bucket. */
+/** Small pieces of the server: command parsing, the frame buffer, the replay merge, the token bucket, the pacing loop. */
 import { describe, expect, it } from 'vitest';
 import { FrameBuffer } from '../../src/server/frameBuffer.ts';
 import { COMMAND_TYPES, parseCommand } from '../../src/server/protocol.ts';
 import { TokenBucket } from '../../src/server/rateLimit.ts';
+import { TickScheduler } from '../../src/server/scheduler.ts';
 import { mergeProfile, nextDown, replayScenario } from '../../src/server/replay.ts';
 import { hostChecker, originAllowed } from '../../src/server/security.ts';
 
@@ -105,5 +106,44 @@ describe('origin and host checks', () => {
     const ok = hostChecker('127.0.0.1');
     expect(['localhost:1', '127.0.0.1:8080', '[::1]:8080', 'LOCALHOST'].map(ok)).toEqual([true, true, true, true]);
     expect(['evil.example:8080', '', undefined, 'a b'].map(ok)).toEqual([false, false, false, false]);
+  });
+});
+
+describe('TickScheduler round', () => {
+  // A fake clock and fake sessions: each slice "uses" what the session needs, up to the slice.
+  function fake(needMs: number, clock: { t: number }) {
+    const s = {
+      running: true,
+      needMs,
+      slices: [] as Array<{ ms: number; more: boolean }>,
+      get behind() {
+        return s.needMs > 0;
+      },
+      computeTick(budgetMs: number, more = false) {
+        s.slices.push({ ms: budgetMs, more });
+        const used = Math.min(s.needMs, budgetMs);
+        s.needMs -= used;
+        clock.t += used;
+      },
+      frameTick() {},
+    };
+    return s;
+  }
+
+  it('gives time the others left unused to a session still behind, within the budget', () => {
+    const clock = { t: 0 };
+    const sched = new TickScheduler({ frameHz: 25, maxBudgetMs: 40, now: () => clock.t });
+    const heavy = fake(50, clock);
+    const light = [fake(1, clock), fake(1, clock), fake(1, clock)];
+    for (const s of [heavy, ...light]) sched.add(s as never);
+    sched.round();
+    sched.stop();
+    // First pass: the heavy one (first in turn) gets 40 / 4 = 10 ms, the light ones use 1 ms
+    // each; then the heavy one gets the 27 ms they left, and the round ends at the budget.
+    expect(heavy.slices[0]).toEqual({ ms: 10, more: false });
+    expect(heavy.slices[1]).toEqual({ ms: 27, more: true });
+    expect(heavy.needMs).toBe(13);
+    expect(clock.t).toBe(40);
+    for (const s of light) expect(s.slices.every((x) => !x.more)).toBe(true);
   });
 });
