@@ -7,7 +7,7 @@ import type { z } from 'zod';
 import type { DeviceParams } from '../model/device.ts';
 import { ScenarioError, type ScenarioProblem } from './errors.ts';
 import { PARTS } from './parts.ts';
-import { devicePartSchema, scenarioSchema, type ScenarioParsed } from './schema.ts';
+import { deviceFields, devicePartSchema, scenarioSchema, type ScenarioParsed } from './schema.ts';
 import { unitOf } from './units.ts';
 
 export type Scenario = Readonly<Omit<ScenarioParsed, 'devices'>> & {
@@ -119,6 +119,12 @@ function resolveDevices(refs: DeviceRefs, data: Pick<ScenarioParsed, 'buck' | 'h
   const hs = resolveDevice(refs.highSide as Record<string, unknown>, 'devices.highSide', problems);
   const ls = resolveDevice(refs.lowSide as Record<string, unknown>, 'devices.lowSide', problems);
   if (problems.length > 0 || !hs || !ls) throw new ScenarioError(problems);
+  return checkBus(hs, ls, data);
+}
+
+/** A part rated below the bus is refused (checked after every change to the devices). */
+function checkBus(hs: DeviceParams, ls: DeviceParams, data: Pick<ScenarioParsed, 'buck' | 'halfBridge'>): Scenario['devices'] {
+  const problems: ScenarioProblem[] = [];
   const vBus = data.buck?.vinV ?? data.halfBridge?.vdcV ?? 0;
   for (const [name, dev] of [['highSide', hs], ['lowSide', ls]] as const) {
     if (vBus > dev.vdsRatedV)
@@ -207,21 +213,47 @@ export function withOverrides(scenario: Scenario, patch: Readonly<Record<string,
   const input = local ? { ...base } : plainCopy(base);
   if (local) for (const s of sections) input[s] = plainCopy(base[s]);
   for (const [path, value] of Object.entries(patch)) setPathInPlace(input, path, plainCopy(value));
-  return local ? withSections(scenario, input, sections as Set<SelfContained>) : parseOwnedInput(input);
+  return local ? withSections(scenario, input, sections as Set<SelfContained>, patch) : parseOwnedInput(input);
 }
 
-function withSections(scenario: Scenario, input: Record<string, unknown>, sections: ReadonlySet<SelfContained>): Scenario {
+const DEVICE_LEAF = /^devices\.(highSide|lowSide)\.([A-Za-z0-9]+)$/;
+
+/**
+ * The resolved parts with some fields replaced, when every device entry of the patch sets a
+ * part field (`devices.highSide.vth25V`) to a number its field schema accepts; undefined for
+ * anything else. A part is a strict object of independent fields over the library part, so this
+ * is what re-parsing the section gives, without it (a device-spread sample sets a dozen fields).
+ */
+function devicesWithLeaves(scenario: Scenario, patch: Readonly<Record<string, unknown>>): { highSide: DeviceParams; lowSide: DeviceParams } | undefined {
+  const next = { highSide: scenario.devices.highSide, lowSide: scenario.devices.lowSide };
+  for (const [path, value] of Object.entries(patch)) {
+    if (!path.startsWith('devices.')) continue;
+    const m = DEVICE_LEAF.exec(path);
+    if (!m || typeof value !== 'number' || !Object.hasOwn(deviceFields, m[2])) return undefined;
+    if (!deviceFields[m[2] as keyof typeof deviceFields].safeParse(value).success) return undefined;
+    const side = m[1] as 'highSide' | 'lowSide';
+    next[side] = { ...next[side], [m[2]]: value };
+  }
+  return next;
+}
+
+function withSections(scenario: Scenario, input: Record<string, unknown>, sections: ReadonlySet<SelfContained>, patch: Readonly<Record<string, unknown>>): Scenario {
   const problems: ScenarioProblem[] = [];
   const parsed: Partial<Record<SelfContained, unknown>> = {};
+  const leaves = sections.has('devices') ? devicesWithLeaves(scenario, patch) : undefined;
   for (const s of Object.keys(SELF_CONTAINED) as SelfContained[]) {
-    if (!sections.has(s)) continue; // in schema order, as a full parse reports them
+    if (!sections.has(s) || (s === 'devices' && leaves)) continue; // in schema order, as a full parse reports them
     const r = SELF_CONTAINED[s].safeParse(input[s]);
     if (r.success) parsed[s] = r.data;
     else problems.push(...problemsFromZod(r.error.issues, input[s], [s]));
   }
   if (problems.length > 0) throw new ScenarioError(problems);
   const thermal = (parsed.thermal as Scenario['thermal'] | undefined) ?? scenario.thermal;
-  const devices = parsed.devices ? resolveDevices(parsed.devices as DeviceRefs, scenario) : scenario.devices;
+  const devices = leaves
+    ? checkBus(leaves.highSide, leaves.lowSide, scenario)
+    : parsed.devices
+      ? resolveDevices(parsed.devices as DeviceRefs, scenario)
+      : scenario.devices;
   return deepFreeze({ ...scenario, thermal, devices, input }) as Scenario;
 }
 
