@@ -13,13 +13,14 @@ import { type Scenario, withOverrides } from '../scenario/parse.ts';
 import { samplePeriodS } from '../sim/system.ts';
 import { BASES, type LinearPoint, type LoopEvaluation, type MarginContext, type MarginOverrides, evaluateLoop, linearPoint, marginContext } from './marginContext.ts';
 import { LinearizationError } from './linearize.ts';
+import type { StabilityMargins } from './stabilityMargins.ts';
 import { type BodeData, approxLoopGainAt, bode, logGridHz, loopGainAt } from './loopGain.ts';
 
 export { suggestGains, type GainSuggestion, type SuggestOptions } from './suggestGains.ts';
 export { stableFswBand, type StableBand, type StableBandOptions } from './stableBand.ts';
 export { BASES, type MarginContext, type MarginOverrides, loadPathOf, marginContext } from './marginContext.ts';
 
-export interface BasisMargins {
+export interface BasisMargins extends StabilityMargins {
   readonly basis: PiBasis;
   readonly configured: boolean;
   readonly kp: number;
@@ -28,13 +29,6 @@ export interface BasisMargins {
   readonly b0: number;
   readonly b1: number;
   readonly kiEquivalentPerS: number;
-  readonly crossoverHz: number;
-  readonly pmDeg: number;
-  readonly phaseCrossoverHz: number;
-  readonly gmDb: number;
-  readonly delayMarginS: number;
-  readonly gainCrossingsHz: readonly number[];
-  readonly phaseCrossingsHz: readonly number[];
   readonly maxPoleAbs: number;
   readonly poles: ReadonlyArray<{ re: number; im: number }>;
   /** Verdict from the closed-loop poles (all |λ| < 1). */

@@ -1,7 +1,7 @@
 /**
  * A session host: live sessions computed on a worker thread, so a server uses every core (the
  * main thread keeps the sockets, the hosts keep the simulations). Each host has its own pacing
- * loop (`TickScheduler`) for the sessions placed on it, and talks to the main thread in the
+ * loop (`TickScheduler`) for the sessions placed on it, and exchanges messages with the main thread in the
  * small message protocol below; `sessionPool.ts` is the other end.
  *
  * Frames are serialized here, off the main thread. Backpressure stays the main thread's

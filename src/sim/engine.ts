@@ -749,12 +749,7 @@ export class Simulation {
 
   /** `measured(sys, x, u)` for the present state, with the system constants in fields (hot path). */
   private measuredNow(): number {
-    const x = this.x;
-    if (!this.isBuck) return x[0];
-    const u = this.u;
-    const esr = this.esrOut;
-    if (Number.isNaN(u.loadROhm)) return x[1] + esr * (x[0] - u.loadIA);
-    return (x[1] + esr * x[0]) / (1 + esr / u.loadROhm);
+    return measuredFrom(this.isBuck, this.esrOut, this.x, this.u);
   }
 
   private supervisorTick(): void {
@@ -1019,8 +1014,12 @@ export function simulate(sys: SimSystem, opts: SimOptions = {}): SimResult {
 /** The regulated quantity from the states without a leg evaluation: buck output voltage (ESR divider with the load) or half-bridge current. */
 export function measured(sys: SimSystem, x: Float64Array, u: AvgInputs): number {
   const c = sys.plant.conv;
-  if (c.kind !== 'buck') return x[0];
-  const esr = c.cout.esrOhm;
-  if (Number.isNaN(u.loadROhm)) return x[1] + esr * (x[0] - u.loadIA);
-  return (x[1] + esr * x[0]) / (1 + esr / u.loadROhm);
+  return measuredFrom(c.kind === 'buck', c.kind === 'buck' ? c.cout.esrOhm : 0, x, u);
+}
+
+/** `measured` with the topology and the output capacitor's ESR given (the engine keeps them in fields). */
+function measuredFrom(isBuck: boolean, esrOhm: number, x: Float64Array, u: AvgInputs): number {
+  if (!isBuck) return x[0];
+  if (Number.isNaN(u.loadROhm)) return x[1] + esrOhm * (x[0] - u.loadIA);
+  return (x[1] + esrOhm * x[0]) / (1 + esrOhm / u.loadROhm);
 }
