@@ -356,6 +356,8 @@ export class Simulation {
   private skippedS = 0;
   private odexIntervals = 0;
   private iterations = 0;
+  /** Where the current advanceUntil stops (bare samples run inside an iteration stop there too). */
+  private stopAtS = Infinity;
   private settled = 0;
   private lastE = 0;
   private useOdex: boolean;
@@ -900,37 +902,69 @@ export class Simulation {
     if (!this.held && t >= this.tNextSample - 1e-12) this.controlSample(t);
     // 2. next event
     const tEvent = Math.min(this.tNextTh, this.tNextRec, supOn ? this.tNextSup : Infinity, this.nextBreak(t), this.tEndS);
-    if (!this.held && this.settled >= SETTLE_SAMPLES && !this.useOdex && !this.anyRamp(t)) this.enterHold();
-    if (this.held) {
-      // 3'. held: jump to the next event; no samples in between.
-      this.advanceHeld(tEvent - t);
-      this.t = tEvent;
-      this.tNextSample = tEvent;
-      if (this.diverged()) { this.status = 'diverged'; return false; }
-      return true;
-    }
-    const tStop = Math.min(this.tNextSample, tEvent);
-    // 3. integrate
-    const dt = tStop - t;
-    if (dt > 0 && !this.advance(dt)) {
-      this.status = 'diverged';
-      if (!this.diverged()) {
-        this.cause = `integration failed at ${t.toFixed(6)} s`;
-        this.causeCode = 'integration';
-      }
-      return false;
-    }
-    this.t = tStop;
-    if (this.diverged()) { this.status = 'diverged'; return false; }
-    return true;
+    return this.integrate(tEvent);
   }
 
-  /** Run whole iterations until t ≥ tS (or the end, divergence, or a stop request). */
-  advanceUntil(tS: number): SimStatus {
+  /**
+   * No ramp on a plant input, a gain, the knobs or the supervisor switch at tt: until the next
+   * breakpoint an iteration re-reads the same inputs.
+   */
+  private inputsSteady(tt: number): boolean {
+    return !this.anyRamp(tt) && !rampActive(this.profiles.supervisorOn, tt);
+  }
+
+  /**
+   * Steps 2–3 of an iteration at this.t toward tEvent: a hold when settled, else integrate to the next
+   * sample or event. While the next iteration would do nothing but a control sample (nothing else
+   * due, inputs steady, before the caller's stop time), it is run here — the same calls in the same
+   * order as iterate() would make, without re-reading inputs and events.
+   */
+  private integrate(tEvent: number): boolean {
+    const tIter = this.t;
+    let steady: boolean | undefined;
+    for (;;) {
+      const t = this.t;
+      if (!this.held && this.settled >= SETTLE_SAMPLES && !this.useOdex && !this.anyRamp(t)) this.enterHold();
+      if (this.held) {
+        // 3'. held: jump to the next event; no samples in between.
+        this.advanceHeld(tEvent - t);
+        this.t = tEvent;
+        this.tNextSample = tEvent;
+        if (this.diverged()) { this.status = 'diverged'; return false; }
+        return true;
+      }
+      const tStop = Math.min(this.tNextSample, tEvent);
+      // 3. integrate
+      const dt = tStop - t;
+      if (dt > 0 && !this.advance(dt)) {
+        this.status = 'diverged';
+        if (!this.diverged()) {
+          this.cause = `integration failed at ${t.toFixed(6)} s`;
+          this.causeCode = 'integration';
+        }
+        return false;
+      }
+      this.t = tStop;
+      if (this.diverged()) { this.status = 'diverged'; return false; }
+      if (!(tStop < tEvent - 1e-12 && tStop >= this.tNextSample - 1e-12 && tStop < this.stopAtS - 1e-12 && (steady ??= this.inputsSteady(tIter)))) return true;
+      // The next iteration, a bare control sample.
+      this.iterations++;
+      this.controlSample(tStop);
+    }
+  }
+
+  /**
+   * Run whole iterations until t ≥ tS (or the end, divergence, or a stop request). `yieldNow`, polled
+   * every 256 iterations, returns early with the status unchanged (a caller's time slice is spent);
+   * the next call continues exactly where this one stopped.
+   */
+  advanceUntil(tS: number, yieldNow?: () => boolean): SimStatus {
     if (this.finished || this.status !== 'ok') return this.status;
     const target = Math.min(tS, this.tEndS);
+    this.stopAtS = target;
     let poll = 0;
     while (this.t < target - 1e-12) {
+      if (yieldNow !== undefined && (poll & 255) === 255 && yieldNow()) break;
       if (++poll >= 4096) {
         poll = 0;
         this.opts.onProgress?.(this.t, this.tEndS);

@@ -86,6 +86,42 @@ describe('interruption and resumption', () => {
     expect(chunked.records).toEqual(whole.records);
     expect(chunked.energiesJ).toEqual(whole.energiesJ);
   });
+
+  it('bare control samples run inside an iteration give exactly the iteration-by-iteration run', () => {
+    // Pieces of a third of the 10 µs sample period stop the run after every sample, so each
+    // sample goes through a full iteration; in one go, samples between events run inside one.
+    const sc = buckScenario(STEPS);
+    const whole = new Simulation(buildSystem(sc));
+    whole.advanceUntil(whole.tEndS);
+    const one = whole.finish();
+    const sim = new Simulation(buildSystem(sc));
+    const piece = 1e-5 / 3;
+    for (let k = 1; k * piece < sim.tEndS; k++) sim.advanceUntil(k * piece);
+    sim.advanceUntil(sim.tEndS);
+    const step = sim.finish();
+    expect(one.stats.samples).toBeGreaterThan(500);
+    expect(step.records).toEqual(one.records);
+    expect(step.energiesJ).toEqual(one.energiesJ);
+    expect(step.stats).toEqual(one.stats);
+  });
+
+  it('yielding whenever asked gives exactly the one-go run, the status staying ok', () => {
+    // A thermal step every 10 µs: enough iterations for the yield poll (every 256) to come round.
+    const sc = buckScenario({ ...STEPS, 'sim.thermalStepS': 1e-5 });
+    const whole = simulate(buildSystem(sc));
+    const sim = new Simulation(buildSystem(sc));
+    let calls = 0;
+    let polls = 0;
+    while (!sim.done) {
+      calls++;
+      expect(sim.advanceUntil(sim.tEndS, () => ++polls > 0)).toBe('ok');
+    }
+    const yielded = sim.finish();
+    expect(calls).toBeGreaterThan(5);
+    expect(calls).toBe(polls + 1);
+    expect(yielded.records).toEqual(whole.records);
+    expect(yielded.energiesJ).toEqual(whole.energiesJ);
+  });
 });
 
 describe('live inputs', () => {
