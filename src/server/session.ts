@@ -69,9 +69,10 @@ export class SessionError extends Error {
 }
 
 const LIVE_EVERY_MS = 250;
-/** Smallest simulated chunk (a few control samples): smaller ones cost more in call overhead than they save. */
-const MIN_CHUNK_S = 1e-5;
+/** Longest simulated stretch between checks of the trace limit. */
 const MAX_CHUNK_S = 5;
+/** Most wall time a session behind its pace may catch up (s), at whatever speed the thread has to spare. */
+const CATCH_UP_WALL_S = 2;
 const MARGIN_EVERY_MS = 500;
 const PAUSED_FRAME_MS = 1000;
 
@@ -99,7 +100,6 @@ export class Session {
   private achievedSpeed = 0;
   /** Simulated time at the start of the last round's first slice (s). */
   private roundStartS = 0;
-  private chunkS = 1e-3;
   private seq = 0;
   private merged = 0;
   private dirty = true;
@@ -167,7 +167,6 @@ export class Session {
     this.simTargetS = 0;
     this.achievedSpeed = 0;
     this.roundStartS = 0;
-    this.chunkS = Math.min(1e-3, scenario.sim.recordIntervalS);
     this.margin = null;
     this.marginKey = '';
     this.mapJob = undefined;
@@ -494,30 +493,27 @@ export class Session {
 
   private advance(budgetMs: number, nowMs: number, more: boolean): void {
     const sim = this.run.sim;
-    // A further slice in the same round continues toward the target already set; it adds no wall time.
-    const wallDtS = more ? 0 : Math.min(Math.max(nowMs - this.lastTickMs, 0), 250) / 1000;
+    // A further slice in the same round continues toward the target already set; it adds no wall
+    // time. A long gap (a busy round, a stalled process) counts up to the catch-up limit.
+    const wallDtS = more ? 0 : Math.min(Math.max(nowMs - this.lastTickMs, 0) / 1000, CATCH_UP_WALL_S);
     const t0 = sim.t;
     const target = this.speed === 'max' ? Infinity : Math.max(this.simTargetS, t0) + this.speed * wallDtS;
-    const start = this.opts.now();
+    const now = this.opts.now;
+    const deadline = now() + budgetMs;
+    const spent = (): boolean => now() >= deadline;
     let budgetHit = false;
-    // Chunk size by observed wall time (the cost of simulated time is spiky — supervisor table
-    // rebuilds, linearizations — so a rate estimate misleads): aim each chunk at a fraction of the
-    // slice, grow or shrink it by at most 2× / 4× per chunk.
-    const aimMs = Math.max(0.25, 0.4 * budgetMs);
+    // The engine yields when the slice is spent (polled every few hundred iterations: the cost of
+    // simulated time is spiky — a demand step sets the knobs slewing and the loop sampling at the
+    // PWM rate), so one expensive stretch cannot hold up the other sessions on this thread.
     while (sim.t < target - 1e-9 && !sim.done && this.trace.length < this.opts.traceMaxRecords) {
-      const used = this.opts.now() - start;
-      if (used >= budgetMs) { budgetHit = true; break; }
-      // At least MIN_CHUNK_S, so a sliver left before the target cannot spin without progress.
-      const chunk = Math.max(MIN_CHUNK_S, Math.min(target - sim.t, this.chunkS));
-      const s0 = sim.t;
-      const c0 = this.opts.now();
-      sim.advanceUntil(s0 + chunk);
-      const ms = this.opts.now() - c0;
-      if (sim.t - s0 >= 0.5 * chunk) this.chunkS = Math.min(MAX_CHUNK_S, Math.max(MIN_CHUNK_S, this.chunkS * Math.min(Math.max(aimMs / Math.max(ms, 0.02), 0.25), 2)));
+      if (spent()) { budgetHit = true; break; }
+      sim.advanceUntil(Math.min(target, sim.t + MAX_CHUNK_S), spent);
     }
-    // Falling behind: keep at most one frame period of debt (a later slice of this round, or the
-    // next round, may still make it up), never more, so a session does not race to catch up later.
-    const maxDebtS = this.speed === 'max' ? 0 : this.speed / this.opts.frameHz;
+    // Falling behind: keep up to CATCH_UP_WALL_S of debt, made up from time the thread has to
+    // spare (later slices of this round or later rounds), so a heavy stretch delays the session
+    // but does not slow it for good; past that the debt is dropped, so an overloaded server runs
+    // its sessions as fast as it can without a backlog that grows without bound.
+    const maxDebtS = this.speed === 'max' ? 0 : this.speed * CATCH_UP_WALL_S;
     this.simTargetS = this.speed === 'max' ? sim.t : budgetHit ? Math.min(target, sim.t + maxDebtS) : target;
     if (!more) {
       // Pace over the wall time since the last round began, whatever slices that round took.
@@ -552,13 +548,9 @@ export class Session {
     if (this.disposed) return;
     try {
       const now = this.opts.now();
-      if (this.state === 'running') {
-        if (budgetMs > 0) this.advance(budgetMs, now, more);
-        else if (!more) {
-          this.simTargetS = this.roundStartS = this.run.sim.t;
-          this.noteProgress(0, Math.min(Math.max(now - this.lastTickMs, 0), 250) / 1000);
-        }
-      }
+      // No time this round (budgetMs 0): the pace target still moves on and the debt is kept, as
+      // for a slice that ran out.
+      if (this.state === 'running' && (budgetMs > 0 || !more)) this.advance(budgetMs, now, more);
       if (!more) this.lastTickMs = now;
       if (more) return;
       if (this.mapJob && budgetMs > 0) this.stepMapJob();
