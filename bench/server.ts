@@ -22,7 +22,22 @@ interface ClientReport {
   wallS: number;
   /** CPU the clients' own process used over the window (s): on this machine it competes with the server. */
   clientCpuS: number;
-  sessions: Array<{ frames: number; framesPerS: number; simSpeed: number; reportedSpeed: number; kBytesPerS: number; merged: number; droppedRecords: number; errors: number }>;
+  sessions: Array<{
+    frames: number;
+    framesPerS: number;
+    simSpeed: number;
+    /** Simulated time at the last frame over wall time since the start was acknowledged (start-up included). */
+    speedSinceStart: number;
+    /** Largest lag behind the requested pace seen in any frame (wall seconds). */
+    maxLagS: number;
+    /** Lag behind the requested pace at the last frame (wall seconds). */
+    finalLagS: number;
+    reportedSpeed: number;
+    kBytesPerS: number;
+    merged: number;
+    droppedRecords: number;
+    errors: number;
+  }>;
 }
 
 const stats = (xs: number[]) => ({
@@ -74,14 +89,21 @@ export async function benchServer(): Promise<BenchResult> {
     const cpuS = (cpu1!.user + cpu1!.system) / 1e6;
     const fps = stats(report.sessions.map((s) => s.framesPerS));
     const speed = stats(report.sessions.map((s) => s.simSpeed));
+    const sinceStart = stats(report.sessions.map((s) => s.speedSinceStart));
+    const lag = stats(report.sessions.map((s) => s.maxLagS));
+    const finalLag = stats(report.sessions.map((s) => s.finalLagS));
     const kbps = stats(report.sessions.map((s) => s.kBytesPerS));
-    const value = fps.mean;
+    // Sustained: the slowest session's simulated time over its wall time since start.
+    const value = sinceStart.min;
     const details = {
       sessions: SESSIONS,
       requestedSpeed: SPEED,
       wallS,
       framesPerSessionPerS: fps,
       simulatedSpeedPerSession: speed,
+      simulatedSpeedSinceStart: sinceStart,
+      maxLagBehindPaceS: lag,
+      finalLagBehindPaceS: finalLag,
       kBytesPerSessionPerS: kbps,
       serverCpuS: cpuS,
       serverCpuPercentOfOneCore: (100 * cpuS) / wallS,
@@ -93,14 +115,15 @@ export async function benchServer(): Promise<BenchResult> {
     };
     console.log(
       `server: ${SESSIONS} sessions at ${SPEED}× for ${wallS.toFixed(1)} s — frames/s per session ${fps.min.toFixed(1)}/${fps.mean.toFixed(1)}/${fps.max.toFixed(1)} (min/mean/max), ` +
-        `simulated speed ${speed.min.toFixed(0)}/${speed.mean.toFixed(0)}/${speed.max.toFixed(0)}×, server CPU ${details.serverCpuPercentOfOneCore.toFixed(0)} % of one core (${THREADS} session threads; the clients' process ${details.clientCpuPercentOfOneCore.toFixed(0)} %), peak RSS ${(peakRss / 1e6).toFixed(0)} MB`,
+        `simulated speed over the window ${speed.min.toFixed(0)}/${speed.mean.toFixed(0)}/${speed.max.toFixed(0)}×, since start ${sinceStart.min.toFixed(1)}/${sinceStart.mean.toFixed(1)}/${sinceStart.max.toFixed(1)}×, ` +
+        `lag behind pace largest ${lag.max.toFixed(2)} s, at the end ${finalLag.max.toFixed(2)} s, server CPU ${details.serverCpuPercentOfOneCore.toFixed(0)} % of one core (${THREADS} session threads; the clients' process ${details.clientCpuPercentOfOneCore.toFixed(0)} %), peak RSS ${(peakRss / 1e6).toFixed(0)} MB`,
     );
     return {
       id: 'server',
-      label: `live server: frames/s per session (${SESSIONS} sessions at ${SPEED}×)`,
+      label: `live server: ${SESSIONS} sessions at ${SPEED}×, slowest session's simulated s per wall s since start (frames/s ≥ ${TARGET_FRAMES_PER_S} each: ${fps.min >= TARGET_FRAMES_PER_S ? 'yes' : 'NO'})`,
       value,
-      target: TARGET_FRAMES_PER_S,
-      ratio: value / TARGET_FRAMES_PER_S,
+      target: SPEED,
+      ratio: value / SPEED,
       details,
     };
   } finally {

@@ -10,20 +10,27 @@ const speed = speedArg === 'max' ? 'max' : Number(speedArg);
 function client(i) {
   return new Promise((resolve) => {
     const ws = new WebSocket(url);
-    const s = { i, frames: 0, bytes: 0, firstT: NaN, lastT: NaN, achievedSpeed: NaN, merged: 0, dropped: 0, errors: 0, t0: 0, t1: 0, ws };
+    const s = { i, frames: 0, bytes: 0, firstT: NaN, lastT: NaN, achievedSpeed: NaN, merged: 0, dropped: 0, errors: 0, t0: 0, t1: 0, ws, startMs: NaN, lastMs: NaN, maxLagS: 0 };
     ws.on('message', (d) => {
       const m = JSON.parse(String(d));
       if (m.type === 'scenario' && s.t0 === 0) {
         ws.send(JSON.stringify({ v: 1, type: 'speed', speed }));
         ws.send(JSON.stringify({ v: 1, type: 'start' }));
       }
-      if (m.type === 'status' && m.ack === 'start') resolve(s);
+      if (m.type === 'status' && m.ack === 'start') {
+        s.startMs = performance.now();
+        resolve(s);
+      }
       if (m.type === 'error') s.errors++;
+      // Behind the pace set at the start acknowledgement (wall seconds), start-up included.
+      if (m.type === 'frame' && m.state === 'running' && typeof speed === 'number' && s.t1 === 0)
+        s.maxLagS = Math.max(s.maxLagS, (performance.now() - s.startMs) / 1000 - m.tS / speed);
       if (m.type === 'frame' && m.state === 'running' && s.t0 > 0 && s.t1 === 0) {
         s.frames++;
         s.bytes += d.length;
         if (Number.isNaN(s.firstT)) s.firstT = m.tS;
         s.lastT = m.tS;
+        s.lastMs = performance.now();
         s.achievedSpeed = m.achievedSpeed;
         s.merged += m.merged;
         s.dropped += m.droppedRecords;
@@ -47,6 +54,10 @@ const out = sessions.map((s) => ({
   frames: s.frames,
   framesPerS: s.frames / wallS,
   simSpeed: (s.lastT - s.firstT) / wallS,
+  // Simulated time at the last frame over the wall time since the start was acknowledged.
+  speedSinceStart: s.lastT / ((s.lastMs - s.startMs) / 1000),
+  maxLagS: s.maxLagS,
+  finalLagS: (s.lastMs - s.startMs) / 1000 - s.lastT / speed,
   reportedSpeed: s.achievedSpeed,
   kBytesPerS: s.bytes / 1024 / wallS,
   merged: s.merged,
