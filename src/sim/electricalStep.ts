@@ -92,6 +92,8 @@ function powersOf(o: AvgOutputs, leg: LegResult, out: Float64Array, base: number
   out[base + ENERGY.n + 1] = o.capInRmsA * o.capInRmsA;
 }
 
+const CAP_OUT = ENERGY.n;
+
 /** Relative tolerance within which two interval lengths share one discretization (float time grid jitter). */
 const DT_MATCH_REL = 1e-9;
 
@@ -153,8 +155,66 @@ export class ZohStepper {
     return Math.abs(x[0] - this.x0[0]) <= this.scale[0] && Math.abs(x[1] - this.x0[1]) <= this.scale[1];
   }
 
+  /**
+   * Energies of the steps booked since the last `takeEnergies`. The local powers are linear in the
+   * states and duty about the point, so booking a step adds its length and its mid-point
+   * deviations from the point, each times the length, to four sums; the energies are formed from
+   * them when taken, or carried over when the point moves (`linearize`).
+   */
+  private sumDt = 0;
+  private sumD0 = 0;
+  private sumD1 = 0;
+  private sumDd = 0;
+  private readonly carry = new Float64Array(ENERGY.n);
+  private pending = false;
+  /** Capacitor ripple mean squares (A²) of the last booked step's mid-point, clipped at zero. */
+  capOutMs = 0;
+  capInMs = 0;
+
+  /** Book a step of length dtS whose mid-point state is (m0, m1), duty held at `duty`. */
+  book(m0: number, m1: number, duty: number, dtS: number): void {
+    const pw = this.pw;
+    const d0 = m0 - this.x0[0];
+    const d1 = m1 - this.x0[1];
+    const dd = duty - this.d0;
+    this.sumDt += dtS;
+    this.sumD0 += d0 * dtS;
+    this.sumD1 += d1 * dtS;
+    this.sumDd += dd * dtS;
+    this.pending = true;
+    const o = CAP_OUT;
+    const i = CAP_OUT + 1;
+    const out = pw[o] + pw[POWER_N + o] * d0 + pw[2 * POWER_N + o] * d1 + pw[3 * POWER_N + o] * dd;
+    const inp = pw[i] + pw[POWER_N + i] * d0 + pw[2 * POWER_N + i] * d1 + pw[3 * POWER_N + i] * dd;
+    this.capOutMs = out > 0 ? out : 0;
+    this.capInMs = inp > 0 ? inp : 0;
+  }
+
+  /** Energies (J, ENERGY order) booked since the last call are written to `out`; false if none. */
+  takeEnergies(out: Float64Array): boolean {
+    if (!this.pending) return false;
+    this.fold();
+    out.set(this.carry);
+    this.carry.fill(0);
+    this.pending = false;
+    return true;
+  }
+
+  /** Turn the sums into energies with the present point's powers (before the point moves). */
+  private fold(): void {
+    const pw = this.pw;
+    const c = this.carry;
+    const t = this.sumDt;
+    const s0 = this.sumD0;
+    const s1 = this.sumD1;
+    const sd = this.sumDd;
+    for (let k = 0; k < ENERGY.n; k++) c[k] += pw[k] * t + pw[POWER_N + k] * s0 + pw[2 * POWER_N + k] * s1 + pw[3 * POWER_N + k] * sd;
+    this.sumDt = this.sumD0 = this.sumD1 = this.sumDd = 0;
+  }
+
   /** Build the local model at (x, u): three extra leg evaluations (two states, duty) by forward differences. */
   linearize(x: Float64Array, u: AvgInputs): void {
+    if (this.pending) this.fold();
     this.linearizations++;
     const p = this.plant;
     const uu = Object.assign(this.uu, u);
@@ -213,18 +273,6 @@ export class ZohStepper {
     this.slotGb[s][1] = z.bd[2]; this.slotGw[s][1] = z.bd[3];
     this.slotDt[s] = dtS;
     return s;
-  }
-
-  /**
-   * Powers of the local model at state (x0, x1) and duty d, first order about the point: used
-   * with the interval's mid-point state, the energy of a ZOH step is second-order accurate.
-   */
-  powersAt(x0: number, x1: number, duty: number, out: Float64Array): void {
-    const pw = this.pw;
-    const d0 = x0 - this.x0[0];
-    const d1 = x1 - this.x0[1];
-    const dd = duty - this.d0;
-    for (let k = 0; k < POWER_N; k++) out[k] = pw[k] + pw[POWER_N + k] * d0 + pw[2 * POWER_N + k] * d1 + pw[3 * POWER_N + k] * dd;
   }
 
   /** One held-duty step of length dtS with the current local model (call `linearize` first). */

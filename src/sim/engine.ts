@@ -337,7 +337,6 @@ export class Simulation {
   private readonly hpH = new Float64Array(HP_N);
   private readonly hpL = new Float64Array(HP_N);
   private readonly hpNow = new Float64Array(HP_N);
-  private readonly zohPowers = new Float64Array(HP_N);
   private readonly hLeg = newLegResult();
   private readonly hOuts = newAvgOutputs();
   private readonly uH: AvgInputs;
@@ -517,6 +516,7 @@ export class Simulation {
   private thermalStep(dtIn: number): void {
     let dt = dtIn;
     if (dt <= 0) return;
+    this.flushZohEnergies();
     const net = this.sys.net;
     this.thermalSteps++;
     // Inputs held over the step take their mid-interval values: a step breakpoint landing at the
@@ -560,6 +560,7 @@ export class Simulation {
   }
 
   private emitRecord(): void {
+    this.flushZohEnergies();
     const dt = this.recTime > 0 ? this.recTime : 1;
     const a = this.accRec;
     const pin = a[E_PIN] / dt;
@@ -609,6 +610,12 @@ export class Simulation {
 
   /** Book an interval's energies (accStep), mean output and capacitor mean squares into every accumulator. */
   private accumulate(dt: number, yMean: number, capOutMs: number, capInMs: number): void {
+    this.bookEnergies();
+    this.accumulateRest(dt, yMean, capOutMs, capInMs);
+  }
+
+  /** Add accStep to every energy accumulator. */
+  private bookEnergies(): void {
     const s = this.accStep;
     for (let k = 0; k < E_N; k++) {
       this.accTh[k] += s[k];
@@ -616,6 +623,19 @@ export class Simulation {
       this.accSup[k] += s[k];
       this.accTot[k] += s[k];
     }
+  }
+
+  /**
+   * Energies of ZOH steps are booked in the stepper (sums linear in the states) and moved into the
+   * accumulators here, by whatever reads them (thermal step, record, supervisor tick, finish) — at
+   * event times, so where advanceUntil's pieces end never changes the sums.
+   */
+  private flushZohEnergies(): void {
+    if (this.zoh.takeEnergies(this.accStep)) this.bookEnergies();
+  }
+
+  /** Mean output and capacitor mean squares of an interval, and its length, into their accumulators. */
+  private accumulateRest(dt: number, yMean: number, capOutMs: number, capInMs: number): void {
     this.capOutMs += capOutMs * dt;
     this.capInMs += capInMs * dt;
     this.recCapOutMs += capOutMs * dt;
@@ -654,12 +674,11 @@ export class Simulation {
       const xa = x[0];
       const xb = x[1];
       zoh.step(x, u.duty, dt);
-      // Powers of the local model at the interval's mid-point state: second-order accurate energies.
-      const p = this.zohPowers;
-      zoh.powersAt(0.5 * (xa + x[0]), 0.5 * (xb + x[1]), u.duty, p);
-      for (let k = 0; k < E_N; k++) this.accStep[k] = p[k] * dt;
+      // Powers of the local model at the interval's mid-point state: second-order accurate energies
+      // (booked in the stepper, see flushZohEnergies).
+      zoh.book(0.5 * (xa + x[0]), 0.5 * (xb + x[1]), u.duty, dt);
       if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
-      this.accumulate(dt, 0.5 * (y0 + this.measuredNow()), Math.max(p[HP_CAP_OUT], 0), Math.max(p[HP_CAP_IN], 0));
+      this.accumulateRest(dt, 0.5 * (y0 + this.measuredNow()), zoh.capOutMs, zoh.capInMs);
       return true;
     }
     if (!(Number.isFinite(x[0]) && Number.isFinite(x[1]))) return false;
@@ -755,6 +774,7 @@ export class Simulation {
   }
 
   private supervisorTick(): void {
+    this.flushZohEnergies();
     const sup = this.sup!;
     const net = this.sys.net;
     const t = this.t;
@@ -993,6 +1013,7 @@ export class Simulation {
   finish(): SimResult {
     if (!this.finished) {
       this.finished = true;
+      this.flushZohEnergies();
       // Close the last intervals so the final temperatures and the last record belong to tEndS.
       const acc = this.accTh;
       let finite = true;
