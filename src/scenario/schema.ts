@@ -9,7 +9,11 @@ const nonneg = () => z.number().finite().nonnegative();
 const finite = () => z.number().finite();
 const fraction = () => z.number().finite().min(0).max(1);
 
-/** Profile: a constant, or breakpoints `[[tS, value], ...]` held (step) or interpolated (ramp). */
+/**
+ * Profile: a constant, or breakpoints `[[tS, value], ...]` held (step) or interpolated (ramp). A
+ * ramp may carry `holds`: from the first of their times on, the ramp gives way to those held
+ * values (how a live session's changes on a ramp are saved, exactly as they were applied).
+ */
 const breakpoints = z
   .array(z.tuple([nonneg(), finite()]))
   .min(1)
@@ -19,7 +23,7 @@ const breakpoints = z
 export const profileSchema = z.union([
   finite(),
   z.object({ step: breakpoints }).strict(),
-  z.object({ ramp: breakpoints }).strict(),
+  z.object({ ramp: breakpoints, holds: breakpoints.optional() }).strict(),
 ]);
 
 /** Device parameters (all optional here: a part from the library fills the rest). */

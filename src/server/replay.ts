@@ -4,9 +4,8 @@
  * scenario whose profiles carry those steps:
  *  - a profile that was constant (a number, or absent) becomes `{step: [[0, base], [t1, v1], ...]}`;
  *  - a step profile keeps its breakpoints before the first live change, then the live steps;
- *  - a ramp profile cannot hold a jump exactly in the present schema: it becomes a ramp through
- *    the live steps with a point just before each jump (the floating-point neighbour), which
- *    replays to rounding, and the result says so in `inexact`.
+ *  - a ramp profile keeps its points and gets the live steps as `holds` (the same overlay the
+ *    session applied, `LiveProfile`, so it replays bit for bit too).
  * `sim.durationS` becomes the session's simulated time. The source text is edited in place
  * (comments and layout kept).
  */
@@ -32,49 +31,18 @@ export interface ReplayInput {
 
 export interface ReplayOutput {
   text: string;
-  /** Profiles whose replay matches only to rounding (a live jump on a ramp). */
-  inexact: string[];
   profiles: Record<string, ProfileSpec>;
 }
 
-/** The largest double below x (x > 0). */
-export function nextDown(x: number): number {
-  if (x === 0) return -Number.MIN_VALUE;
-  const buf = new DataView(new ArrayBuffer(8));
-  buf.setFloat64(0, x);
-  const bits = buf.getBigUint64(0);
-  buf.setBigUint64(0, x > 0 ? bits - 1n : bits + 1n);
-  return buf.getFloat64(0);
-}
-
-function rampValueAt(pts: readonly Step[], t: number): number {
-  if (t <= pts[0][0]) return pts[0][1];
-  for (let i = pts.length - 1; i >= 0; i--) {
-    if (pts[i][0] <= t) {
-      if (i === pts.length - 1) return pts[i][1];
-      const f = (t - pts[i][0]) / (pts[i + 1][0] - pts[i][0]);
-      return pts[i][1] + f * (pts[i + 1][1] - pts[i][1]);
-    }
-  }
-  return pts[0][1];
-}
-
 /** One profile: its spec in the scenario input merged with the live steps. */
-export function mergeProfile(base: unknown, live: readonly Step[], baseAt0: number): { spec: ProfileSpec; exact: boolean } {
+export function mergeProfile(base: unknown, live: readonly Step[], baseAt0: number): ProfileSpec {
   const t1 = live[0][0];
+  const liveSteps = live.map(([t, v]) => [t, v] as [number, number]);
   if (base !== null && typeof base === 'object' && 'ramp' in base) {
-    const pts = (base as { ramp: Step[] }).ramp;
-    const out: Array<[number, number]> = pts.filter((p) => p[0] < t1).map((p) => [p[0], p[1]]);
-    const before = nextDown(t1);
-    if (t1 > 0 && (out.length === 0 || out[out.length - 1][0] < before)) out.push([before, rampValueAt(pts, before)]);
-    live.forEach(([t, v], i) => {
-      if (i > 0) {
-        const b = nextDown(t);
-        if (b > out[out.length - 1][0]) out.push([b, live[i - 1][1]]);
-      }
-      out.push([t, v]);
-    });
-    return { spec: { ramp: out }, exact: false };
+    // The ramp stays as it was; the live steps become its holds (after any earlier holds).
+    const { ramp, holds } = base as { ramp: Step[]; holds?: Step[] };
+    const kept = (holds ?? []).filter((p) => p[0] < t1).map(([t, v]) => [t, v] as [number, number]);
+    return { ramp: ramp.map(([t, v]) => [t, v] as [number, number]), holds: [...kept, ...liveSteps] };
   }
   let head: Array<[number, number]>;
   if (base !== null && typeof base === 'object' && 'step' in base) {
@@ -84,7 +52,7 @@ export function mergeProfile(base: unknown, live: readonly Step[], baseAt0: numb
     // step profile's value before its first breakpoint is the scenario field, not this constant.
     head = t1 > 0 ? [[0, baseAt0]] : [];
   }
-  return { spec: { step: [...head, ...live.map(([t, v]) => [t, v] as [number, number])] }, exact: true };
+  return { step: [...head, ...liveSteps] };
 }
 
 export function replayScenario(r: ReplayInput): ReplayOutput {
@@ -93,12 +61,10 @@ export function replayScenario(r: ReplayInput): ReplayOutput {
   if (doc.errors.length > 0) throw new Error(`replay: the session's scenario text no longer parses: ${doc.errors[0].message}`);
   const inputProfiles = ((r.input as { profiles?: Record<string, unknown> } | null)?.profiles ?? {}) as Record<string, unknown>;
   const profiles: Record<string, ProfileSpec> = {};
-  const inexact: string[] = [];
   for (const [name, steps] of Object.entries(r.liveSteps)) {
     if (steps.length === 0) continue;
-    const { spec, exact } = mergeProfile(inputProfiles[name], steps, r.baseAt0[name]);
+    const spec = mergeProfile(inputProfiles[name], steps, r.baseAt0[name]);
     profiles[name] = spec;
-    if (!exact) inexact.push(name);
     doc.setIn(['profiles', name], doc.createNode(spec, { flow: true }));
   }
   doc.setIn(['sim', 'durationS'], r.durationS);
@@ -106,7 +72,6 @@ export function replayScenario(r: ReplayInput): ReplayOutput {
     ` Replay of a live lossdial session: ${r.durationS} s simulated${r.note ? `; ${r.note}` : ''}.`,
     ' Live changes are the step breakpoints in profiles; `lossdial run` on this file reproduces the session trace.',
   ];
-  if (inexact.length > 0) lines.push(` Ramp profiles changed live (${inexact.join(', ')}) replay to floating-point rounding, not bit for bit.`);
   doc.commentBefore = [lines.join('\n'), doc.commentBefore].filter(Boolean).join('\n');
-  return { text: doc.toString({ lineWidth: 0 }), inexact, profiles };
+  return { text: doc.toString({ lineWidth: 0 }), profiles };
 }

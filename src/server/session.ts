@@ -225,7 +225,7 @@ export class Session {
     let maxW = 0;
     if (typeof p === 'number') maxW = p;
     else if (p && 'step' in p) maxW = Math.max(...p.step.map((x) => x[1]));
-    else if (p && 'ramp' in p) maxW = Math.max(...p.ramp.map((x) => x[1]));
+    else if (p && 'ramp' in p) maxW = Math.max(...p.ramp.map((x) => x[1]), ...(p.holds ?? []).map((x) => x[1]));
     return Math.max(20, Math.ceil((maxW * 1.5) / 10) * 10);
   }
 
@@ -663,7 +663,7 @@ export class Session {
   // ------------------------------------------------------------------ downloads
 
   /** The session as a replayable scenario (YAML text). */
-  replay(): { text: string; fileName: string; inexact: string[] } {
+  replay(): { text: string; fileName: string } {
     const sim = this.run.sim;
     if (!(sim.t > 0)) throw new SessionError('notAllowed', 'replay: the session has not run yet');
     const out = replayScenario({
@@ -674,7 +674,7 @@ export class Session {
       durationS: sim.t,
       note: `${this.trace.length} records`,
     });
-    return { text: out.text, fileName: `${this.scenario.name}-session.yaml`, inexact: out.inexact };
+    return { text: out.text, fileName: `${this.scenario.name}-session.yaml` };
   }
 
   /** The session trace so far (records as a replay run writes them). */

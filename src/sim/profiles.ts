@@ -4,7 +4,8 @@
  * holds its first value. The engine lands on every breakpoint.
  *
  * A live session changes an input by appending a step at the present time (`LiveProfile.setFrom`),
- * so the change is itself a breakpoint and the session replays exactly as a step profile.
+ * so the change is itself a breakpoint and the session replays exactly as a step profile (or, on
+ * a ramp, as the ramp with `holds`, evaluated by the same `LiveProfile`).
  */
 import type { ProfileSpec } from '../scenario/schema.ts';
 
@@ -37,6 +38,12 @@ function lastAtOrBefore(ts: readonly number[], t: number): number {
 export function makeProfile(spec: ProfileSpec | undefined, fallback: number): Profile {
   if (spec === undefined) return constantProfile(fallback);
   if (typeof spec === 'number') return constantProfile(spec);
+  if ('ramp' in spec && spec.holds !== undefined) {
+    // The ramp, overridden from the first hold on — what a live session does with it.
+    const held = new LiveProfile(makeProfile({ ramp: spec.ramp }, fallback));
+    for (const [t, v] of spec.holds) held.setFrom(t, v);
+    return held;
+  }
   const ramp = 'ramp' in spec;
   const pts = ramp ? spec.ramp : spec.step;
   const ts = pts.map((p) => p[0]);

@@ -153,6 +153,18 @@ describe('bad scenarios', () => {
     expect(err.message).toMatch(/buck\.inductor\.lH: .*got "twelve"/);
   });
 
+  it('a ramp may carry holds (strictly increasing); a step list may not', () => {
+    const withInlet = (inletC: unknown): Record<string, unknown> => {
+      const input = structuredClone(demoInput);
+      input.profiles = { ...(input.profiles as object | undefined), inletC };
+      return input;
+    };
+    const ok = parseScenarioObject(withInlet({ ramp: [[0, -5], [100, 5]], holds: [[30, 20], [60, 12]] }));
+    expect(ok.profiles.inletC).toEqual({ ramp: [[0, -5], [100, 5]], holds: [[30, 20], [60, 12]] });
+    expect(parseError(withInlet({ ramp: [[0, -5], [100, 5]], holds: [[60, 20], [30, 12]] })).message).toMatch(/profiles\.inletC/);
+    expect(parseError(withInlet({ step: [[0, -5]], holds: [[30, 20]] })).message).toMatch(/profiles\.inletC/);
+  });
+
   it('turn arbitrary text into a ScenarioError, never a crash (property)', () => {
     // YAML aliases (`*name`) are kept out here: they hit the known bug tracked just below.
     const text = fc.oneof(fc.string(), fc.constantFrom('', '[]', 'null', '- a', '{', 'pwm: [', 'a: 1\na: 2', '{"pwm": 1}', '!!int abc'));

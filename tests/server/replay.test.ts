@@ -78,14 +78,13 @@ describe('session replay', () => {
     expect(differing.slice(0, 5)).toEqual([]);
   });
 
-  it('a live change on a ramp profile is flagged as replaying to rounding only', async () => {
-    const { session } = await drive('buck-cabin-warmup', [20, { type: 'setInlet', inletC: 20 }, 10]);
+  it('a live change on a ramp profile (the coolant inlet) replays bit for bit as the ramp with holds', async () => {
+    const { session } = await drive('buck-cabin-warmup', [20, { type: 'setInlet', inletC: 20 }, 10, { type: 'setInlet', inletC: 12 }, 10]);
     const rep = session.replay();
-    expect(rep.inexact).toEqual(['inletC']);
-    expect(rep.text).toMatch(/replay to floating-point rounding/);
-    const { sessionRecords, replayRecords } = compare(session);
-    const last = sessionRecords.length - 1;
-    expect(replayRecords[last].coolantC).toBeCloseTo(sessionRecords[last].coolantC as number, 6);
+    expect(parseScenario(rep.text).input).toMatchObject({ profiles: { inletC: { ramp: [[0, -5], [1200, 5]] } } });
+    const { sessionRecords, differing } = compare(session);
+    expect(sessionRecords.length).toBeGreaterThan(20);
+    expect(differing.slice(0, 5)).toEqual([]);
     session.dispose();
   });
 });

@@ -4,8 +4,9 @@ import { FrameBuffer } from '../../src/server/frameBuffer.ts';
 import { COMMAND_TYPES, parseCommand } from '../../src/server/protocol.ts';
 import { TokenBucket } from '../../src/server/rateLimit.ts';
 import { TickScheduler } from '../../src/server/scheduler.ts';
-import { mergeProfile, nextDown, replayScenario } from '../../src/server/replay.ts';
+import { mergeProfile, replayScenario } from '../../src/server/replay.ts';
 import { hostChecker, originAllowed } from '../../src/server/security.ts';
+import { LiveProfile, makeProfile } from '../../src/sim/profiles.ts';
 
 describe('parseCommand(text)', () => {
   const ok = (o: unknown) => parseCommand(JSON.stringify(o));
@@ -50,25 +51,29 @@ describe('FrameBuffer(columns, maxPoints)', () => {
 
 describe('mergeProfile(base, liveSteps, baseAt0)', () => {
   it('a constant becomes a step list held from 0', () => {
-    expect(mergeProfile(15, [[40, 30]], 15)).toEqual({ spec: { step: [[0, 15], [40, 30]] }, exact: true });
-    expect(mergeProfile(undefined, [[0, 3], [2, 4]], 1)).toEqual({ spec: { step: [[0, 3], [2, 4]] }, exact: true });
+    expect(mergeProfile(15, [[40, 30]], 15)).toEqual({ step: [[0, 15], [40, 30]] });
+    expect(mergeProfile(undefined, [[0, 3], [2, 4]], 1)).toEqual({ step: [[0, 3], [2, 4]] });
   });
   it('a step profile keeps its earlier points only', () => {
-    expect(mergeProfile({ step: [[5, 12], [120, 22]] }, [[50, 30]], 0)).toEqual({ spec: { step: [[5, 12], [50, 30]] }, exact: true });
-    expect(mergeProfile({ step: [[5, 12], [50, 22]] }, [[50, 30]], 0)).toEqual({ spec: { step: [[5, 12], [50, 30]] }, exact: true });
+    expect(mergeProfile({ step: [[5, 12], [120, 22]] }, [[50, 30]], 0)).toEqual({ step: [[5, 12], [50, 30]] });
+    expect(mergeProfile({ step: [[5, 12], [50, 22]] }, [[50, 30]], 0)).toEqual({ step: [[5, 12], [50, 30]] });
   });
-  it('a ramp holds its jumps one floating-point step early and says it is inexact', () => {
-    const r = mergeProfile({ ramp: [[0, -5], [100, 5]] }, [[50, 20], [70, 25]], -5);
-    expect(r.exact).toBe(false);
-    const pts = (r.spec as { ramp: number[][] }).ramp;
-    expect(pts[0]).toEqual([0, -5]);
-    expect(pts[1][0]).toBe(nextDown(50));
-    expect(pts[1][1]).toBeCloseTo(0, 9);
-    expect(pts.slice(2)).toEqual([[50, 20], [nextDown(70), 20], [70, 25]]);
+  it('a ramp keeps its points and takes the live steps as holds (after its earlier holds only)', () => {
+    expect(mergeProfile({ ramp: [[0, -5], [100, 5]] }, [[50, 20], [70, 25]], -5)).toEqual({ ramp: [[0, -5], [100, 5]], holds: [[50, 20], [70, 25]] });
+    expect(mergeProfile({ ramp: [[0, -5], [100, 5]], holds: [[30, 1], [60, 2]] }, [[50, 20]], -5)).toEqual({ ramp: [[0, -5], [100, 5]], holds: [[30, 1], [50, 20]] });
   });
-  it('nextDown(x) is the largest double below x', () => {
-    expect(nextDown(1)).toBe(1 - Number.EPSILON / 2);
-    expect(nextDown(50) < 50 && (50 + nextDown(50)) / 2 === 50).toBe(true);
+  it('a ramp with holds evaluates as the ramp overlaid by the live steps', () => {
+    const ramp = { ramp: [[0, -5], [100, 5]] as Array<[number, number]> };
+    const live = new LiveProfile(makeProfile(ramp, 0));
+    live.setFrom(50, 20);
+    live.setFrom(70, 25);
+    const saved = makeProfile(mergeProfile(ramp, live.steps(), -5), 0);
+    for (const t of [0, 12.5, 49.999, 50, 60, 69.99, 70, 99, 100, 150]) {
+      expect(saved.valueAt(t)).toBe(live.valueAt(t));
+      expect(saved.nextBreakS(t)).toBe(live.nextBreakS(t));
+    }
+    expect(saved.valueAt(25)).toBe(-2.5);
+    expect(saved.valueAt(55)).toBe(20);
   });
 });
 
@@ -79,7 +84,6 @@ describe('replayScenario', () => {
     expect(out.text).toMatch(/# my case/);
     expect(out.text).toMatch(/durationS: 3.5 # long/);
     expect(out.text).toMatch(/heatDemandW: \{ step: \[ \[ 0, 5 \], \[ 1.25, 9 \] \] \}/);
-    expect(out.inexact).toEqual([]);
   });
   it('refuses a session that has not run', () => {
     expect(() => replayScenario({ sourceText: 'name: x', input: {}, liveSteps: {}, baseAt0: {}, durationS: 0 })).toThrow(/not run/);
