@@ -498,9 +498,9 @@ export class Session {
     const wallDtS = more ? 0 : Math.min(Math.max(nowMs - this.lastTickMs, 0) / 1000, CATCH_UP_WALL_S);
     const t0 = sim.t;
     const target = this.speed === 'max' ? Infinity : Math.max(this.simTargetS, t0) + this.speed * wallDtS;
-    const now = this.opts.now;
-    const deadline = now() + budgetMs;
-    const spent = (): boolean => now() >= deadline;
+    const opts = this.opts;
+    const deadline = opts.now() + budgetMs;
+    const spent = (): boolean => opts.now() >= deadline;
     let budgetHit = false;
     // The engine yields when the slice is spent (polled every few hundred iterations: the cost of
     // simulated time is spiky — a demand step sets the knobs slewing and the loop sampling at the
